@@ -1,0 +1,1 @@
+"""vesselnet: pressure and flow in branching blood-vessel networks."""
