@@ -1,0 +1,1 @@
+"""The bundled demo networks (YAML), found with importlib.resources."""

@@ -1,0 +1,129 @@
+"""Sparse nodal systems of two-terminal elements, with a structure built once.
+
+Every element (a vessel, a bed, a lesion, a graft; real for steady work,
+complex for one harmonic of pulsatile work) joins node ``a`` to node ``b``,
+or node ``a`` to ground (``b = -1``, a fixed reference pressure).  Each
+contributes a 2x2 stamp to the nodal matrix::
+
+    row a: [ d_aa  d_ab ]        for a linear conductance g:  [ g  -g ]
+    row b: [ d_ba  d_bb ]                                      [-g   g ]
+
+Rows and columns of fixed-pressure nodes are dropped: the matrix is that of
+the free nodes only.  :class:`NodalPattern` fixes the sparsity structure once
+per topology; every later matrix (a Newton step, a new sample, another
+frequency) is a single ``bincount`` into it.
+
+Examples
+--------
+>>> import numpy as np
+>>> pattern = NodalPattern(3, np.array([0, 1]), np.array([1, 2]), free=np.array([False, True, False]))
+>>> A = pattern.linear_matrix(np.array([2.0, 3.0]))
+>>> A.toarray()
+array([[5.]])
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import scipy.sparse as sp
+
+
+class NodalPattern:
+    """Sparsity structure of the free-node system for a fixed set of elements.
+
+    Parameters
+    ----------
+    n_nodes : int
+        Number of nodes.
+    a, b : ndarray of int, shape (m,)
+        Element terminals; ``b = -1`` for an element to ground.
+    free : ndarray of bool, shape (n_nodes,)
+        True for nodes whose pressure is unknown.
+    """
+
+    def __init__(self, n_nodes: int, a: np.ndarray, b: np.ndarray, free: np.ndarray):
+        self.n_nodes = int(n_nodes)
+        self.a = np.asarray(a, dtype=np.int64)
+        self.b = np.asarray(b, dtype=np.int64)
+        self.free = np.asarray(free, dtype=bool)
+        self.free_nodes = np.flatnonzero(self.free)
+        self.n_free = len(self.free_nodes)
+        row_of = np.full(self.n_nodes + 1, -1, dtype=np.int64)  # index n_nodes = ground
+        row_of[self.free_nodes] = np.arange(self.n_free)
+        self.row_of = row_of
+        ra, rb = row_of[self.a], row_of[self.b]
+        # stamp order: aa, ab, ba, bb
+        rows = np.concatenate([ra, ra, rb, rb])
+        cols = np.concatenate([ra, rb, ra, rb])
+        keep = (rows >= 0) & (cols >= 0)
+        self._keep = keep
+        key = cols[keep] * max(self.n_free, 1) + rows[keep]
+        unique, self._slot = np.unique(key, return_inverse=True)
+        self._nnz = len(unique)
+        self._indices = (unique % max(self.n_free, 1)).astype(np.int32)
+        counts = np.bincount(unique // max(self.n_free, 1), minlength=self.n_free)
+        self._indptr = np.concatenate([[0], np.cumsum(counts)]).astype(np.int32)
+
+    def matrix(self, d_aa, d_ab, d_ba, d_bb) -> sp.csc_matrix:
+        """The free-node matrix from per-element stamps (real or complex)."""
+        values = np.concatenate([d_aa, d_ab, d_ba, d_bb])[self._keep]
+        if np.iscomplexobj(values):
+            data = (np.bincount(self._slot, values.real, self._nnz)
+                    + 1j * np.bincount(self._slot, values.imag, self._nnz))
+        else:
+            data = np.bincount(self._slot, values, self._nnz)
+        return sp.csc_matrix((data, self._indices, self._indptr), shape=(self.n_free, self.n_free))
+
+    def linear_matrix(self, g) -> sp.csc_matrix:
+        """The matrix of linear conductances ``g`` (one per element)."""
+        g = np.asarray(g)
+        return self.matrix(g, -g, -g, g)
+
+    def node_sum(self, q_out_of_a, q_into_b=None) -> np.ndarray:
+        """Net flow out of every node: ``+q`` at ``a``, ``-q`` at ``b`` (ground ignored).
+
+        ``q_into_b`` defaults to ``q_out_of_a`` (an element that stores nothing).
+        """
+        q_in = q_out_of_a if q_into_b is None else q_into_b
+        grounded = self.b < 0
+        b = np.where(grounded, self.n_nodes, self.b)
+        out = np.bincount(self.a, weights=np.real(q_out_of_a), minlength=self.n_nodes + 1)
+        out = out - np.bincount(b, weights=np.real(q_in), minlength=self.n_nodes + 1)
+        if np.iscomplexobj(q_out_of_a) or np.iscomplexobj(q_in):
+            imag = np.bincount(self.a, weights=np.imag(q_out_of_a), minlength=self.n_nodes + 1)
+            imag = imag - np.bincount(b, weights=np.imag(q_in), minlength=self.n_nodes + 1)
+            out = out + 1j * imag
+        return out[: self.n_nodes]
+
+
+def solve_sparse(A: sp.spmatrix, rhs: np.ndarray) -> np.ndarray:
+    """Solve ``A x = rhs`` by SuperLU with symmetric diagonal scaling.
+
+    Parameters
+    ----------
+    A : sparse matrix, shape (n, n)
+        A nodal matrix (conductances span many decades, hence the scaling).
+    rhs : ndarray, shape (n,)
+
+    Returns
+    -------
+    ndarray
+        The solution.
+
+    Notes
+    -----
+    The matrix is scaled to ``D A D`` with ``D = diag(|A_ii|)^(-1/2)`` and
+    factorised with the symmetric ordering ``MMD_AT_PLUS_A``: the default
+    column ordering is tens of times slower on nodal matrices.
+    """
+    import scipy.sparse.linalg as spla
+
+    n = A.shape[0]
+    if n == 0:
+        return np.zeros(0, dtype=rhs.dtype)
+    diag = np.abs(A.diagonal())
+    d = 1.0 / np.sqrt(np.where(diag > 0, diag, 1.0))
+    D = sp.diags(d)
+    scaled = (D @ A @ D).tocsc()
+    lu = spla.splu(scaled, permc_spec="MMD_AT_PLUS_A")
+    return d * lu.solve(d * rhs)

@@ -1,0 +1,25 @@
+"""``vesselnet check FILE``: validate a network file."""
+
+from __future__ import annotations
+
+
+def add_parser(sub) -> None:
+    p = sub.add_parser("check", help="validate a network, scenario or plan file",
+                       description="Validate a file; every problem is reported with its line.")
+    p.add_argument("file", help="the YAML file")
+    p.set_defaults(run=run)
+
+
+def run(args) -> int:
+    import numpy as np
+
+    from ..reader import load_network
+    from .steady import emit
+
+    net = load_network(args.file)
+    fixed = int((~np.isnan(net.nodes.pressure_pa)).sum())
+    inflows = int((~np.isnan(net.nodes.inflow_m3_s)).sum())
+    emit(f"{args.file}: valid network '{net.name}': {len(net.vessels)} vessels, "
+         f"{len(net.nodes)} nodes, {len(net.beds)} beds, {fixed} fixed-pressure node(s), "
+         f"{inflows} prescribed inflow(s)")
+    return 0

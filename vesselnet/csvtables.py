@@ -1,0 +1,202 @@
+"""CSV tables of vessels, beds and nodes for large networks (SPEC section 2).
+
+One item a row; the header names the columns, with the unit in brackets
+(``length[cm]``); a column without a unit uses the file's default.  Numbers
+are converted a whole column at a time.
+
+Examples
+--------
+>>> import pathlib, tempfile
+>>> path = pathlib.Path(tempfile.mkdtemp()) / "v.csv"
+>>> _ = path.write_text("id,from,to,length[mm],radius[um]\\nv1,a,b,5,40\\n")
+>>> table = read_table(path, "vessels", {"length": "cm", "radius": "mm"})
+>>> table.columns["length_m"], table.columns["radius_in_m"], table.problems
+(array([0.005]), array([4.e-05]), [])
+"""
+
+from __future__ import annotations
+
+import csv
+import re
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from .errors import Problem, UnitError
+from .fields import near_miss
+from .units import factor
+
+# column name -> (model column, kind, rule); rule: "positive", "any", "fraction", "text"
+SPECS: dict[str, dict[str, tuple[str, str, str]]] = {
+    "vessels": {
+        "id": ("id", "", "text"), "from": ("from", "", "text"), "to": ("to", "", "text"),
+        "length": ("length_m", "length", "positive"),
+        "radius": ("radius_m", "radius", "positive"),
+        "diameter": ("diameter_m", "radius", "positive"),
+        "radius_in": ("radius_in_m", "radius", "positive"),
+        "radius_out": ("radius_out_m", "radius", "positive"),
+        "wall_thickness": ("wall_thickness_m", "radius", "positive"),
+        "wall_modulus": ("wall_modulus_pa", "modulus", "positive"),
+        "tags": ("tags", "", "text"),
+    },
+    "beds": {
+        "id": ("id", "", "text"), "node": ("node", "", "text"),
+        "resistance": ("resistance_pa_s_m3", "resistance", "positive"),
+        "outflow_pressure": ("outflow_pressure_pa", "pressure", "any"),
+        "outflow_node": ("outflow_node", "", "text"),
+        "share": ("share", "fraction", "fraction"),
+    },
+    "nodes": {
+        "id": ("id", "", "text"), "pressure": ("pressure_pa", "pressure", "any"),
+        "inflow": ("inflow_m3_s", "flow", "any"), "x": ("x", "length", "any"),
+        "y": ("y", "length", "any"), "z": ("z", "length", "any"),
+        "target_pressure": ("target_pressure_pa", "pressure", "any"),
+    },
+}
+REQUIRED = {"vessels": ("id", "from", "to", "length"), "beds": ("id", "node", "resistance"),
+            "nodes": ("id",)}
+MAX_PROBLEMS_PER_COLUMN = 5
+_HEADER = re.compile(r"\s*([A-Za-z_][A-Za-z_0-9]*)\s*(?:\[\s*([^\]]*?)\s*\])?\s*")
+
+
+@dataclass
+class Table:
+    """What a table held: model columns in SI, vessel tags by row, problems found."""
+
+    columns: dict[str, object] = field(default_factory=dict)
+    tags: dict[str, list[int]] = field(default_factory=dict)
+    problems: list[Problem] = field(default_factory=list)
+
+
+def read_table(path, section: str, units: dict[str, str], *, shown_as: str | None = None) -> Table:
+    """Read a ``vessels``, ``beds`` or ``nodes`` CSV table into SI columns.
+
+    Parameters
+    ----------
+    path : Path
+        The CSV file.
+    section : {'vessels', 'beds', 'nodes'}
+    units : dict
+        Default unit per kind, for columns whose header gives none.
+    shown_as : str, optional
+        File name used in messages (default: ``path``).
+
+    Returns
+    -------
+    Table
+        Empty columns and the problems when the file cannot be used.
+    """
+    name = shown_as or str(path)
+    out = Table()
+
+    def problem(line, item, message, fix=""):
+        out.problems.append(Problem(name, line, 0, item, message, fix))
+
+    try:
+        with open(Path(path), newline="", encoding="utf-8-sig") as handle:
+            rows = list(csv.reader(handle))
+    except (OSError, UnicodeDecodeError, csv.Error) as exc:
+        problem(0, "", f"cannot read the table: {getattr(exc, 'strerror', None) or exc}",
+                "check the path (relative to the YAML file) and that it is UTF-8 CSV")
+        return out
+    rows = [r for r in rows if r and any(c.strip() for c in r)]
+    if not rows:
+        problem(1, "", "the table is empty", "give a header line and one row per item")
+        return out
+    spec = SPECS[section]
+    header, body = rows[0], rows[1:]
+    names, col_units = [], []
+    for k, cell in enumerate(header):
+        match = _HEADER.fullmatch(cell)
+        if not match or match.group(1) not in spec:
+            key = match.group(1) if match else cell
+            problem(1, f"column {k + 1}", f"unknown column '{cell}'",
+                    near_miss(key, spec) or "columns: " + ", ".join(spec))
+            names.append(None)
+        else:
+            names.append(match.group(1))
+        col_units.append(match.group(2) if match else None)
+    for req in REQUIRED[section]:
+        if req not in names:
+            problem(1, "header", f"missing column '{req}'")
+    if section == "vessels" and not ({"radius", "diameter"} & set(names)
+                                     or {"radius_in", "radius_out"} <= set(names)):
+        problem(1, "header", "missing column 'radius' (or 'diameter')")
+    bad_rows = [i for i, r in enumerate(body) if len(r) != len(header)]
+    for i in bad_rows[:MAX_PROBLEMS_PER_COLUMN]:
+        problem(i + 2, f"row {i + 1}", f"has {len(body[i])} cells, the header has {len(header)}")
+    if out.problems:
+        return out
+    cells = list(zip(*body)) if body else [()] * len(header)
+    for k, col_name in enumerate(names):
+        target, kind, rule = spec[col_name]
+        raw = cells[k]
+        if rule == "text":
+            out.columns[target] = [c.strip() for c in raw]
+            continue
+        unit = col_units[k]
+        try:
+            scale = factor(unit, kind) if unit else factor(units[kind], kind) \
+                if kind != "fraction" else 1.0
+        except UnitError as exc:
+            problem(1, f"column '{header[k]}'", str(exc))
+            continue
+        values = _numbers(raw, lambda i, text: problem(i + 2, f"row {i + 1} {col_name}",
+                                                       f"not a number: {text!r}"))
+        if values is None:
+            continue
+        values = values * scale
+        bad = {"positive": ~(np.isfinite(values) & (values > 0)),
+               "any": np.isinf(values),
+               "fraction": ~((values >= 0) & (values <= 1)) & ~np.isnan(values)}[rule]
+        for i in np.flatnonzero(bad)[:MAX_PROBLEMS_PER_COLUMN]:
+            need = {"positive": "> 0", "any": "finite", "fraction": "between 0 and 1"}[rule]
+            problem(i + 2, f"row {i + 1} {col_name}", f"must be {need}, got {raw[i].strip()!r}")
+        out.columns[target] = values
+    _finish(section, out)
+    return out
+
+
+def _numbers(raw, report) -> np.ndarray | None:
+    """Floats of a column; blanks become NaN; ``report(row, text)`` for bad cells."""
+    texts = [c.strip() or "nan" for c in raw]
+    try:
+        values = np.array(texts, dtype=float)
+    except ValueError:
+        values, failed = np.empty(len(texts)), 0
+        for i, t in enumerate(texts):
+            try:
+                values[i] = float(t)
+            except ValueError:
+                if failed < MAX_PROBLEMS_PER_COLUMN:
+                    report(i, t)
+                failed += 1
+        return None
+    return values
+
+
+def _finish(section: str, out: Table) -> None:
+    """Derive model columns: radii from diameter, positions, tags."""
+    cols = out.columns
+    if section == "vessels":
+        if "diameter_m" in cols:
+            cols["radius_m"] = cols.pop("diameter_m") / 2
+        if "radius_m" in cols:
+            r = cols.pop("radius_m")
+            cols.setdefault("radius_in_m", r)
+            cols.setdefault("radius_out_m", r)
+        for i, text in enumerate(cols.pop("tags", ())):
+            for tag in filter(None, (t.strip() for t in text.split(";"))):
+                out.tags.setdefault(tag, []).append(i)
+        cols["line"] = np.arange(2, len(cols["id"]) + 2)
+    elif section == "nodes":
+        n = len(cols["id"])
+        xyz = [cols.pop(a, np.full(n, np.nan)) for a in ("x", "y", "z")]
+        xyz[2] = np.where(np.isnan(xyz[2]) & ~np.isnan(xyz[0]), 0.0, xyz[2])
+        cols["position_m"] = np.column_stack(xyz) if n else np.empty((0, 3))
+        cols["line"] = np.arange(2, n + 2)
+    else:
+        if "outflow_node" in cols:
+            cols["outflow_node"] = [x or None for x in cols["outflow_node"]]
+        cols["line"] = np.arange(2, len(cols["id"]) + 2)

@@ -1,0 +1,103 @@
+"""Readable terminal tables of results.
+
+Examples
+--------
+>>> print(format_table(["bed", "flow [mL/min]"], [["brain", 700.0], ["heart", 200.0]]))
+bed    flow [mL/min]
+-----  -------------
+brain          700.0
+heart          200.0
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from .result import SteadyResult
+from .units import DISPLAY_UNITS, from_si
+
+MAX_ROWS = 40
+
+
+def _cell(value, digits: int = 1) -> str:
+    if isinstance(value, str):
+        return value
+    if isinstance(value, (bool, np.bool_)):
+        return "yes" if value else ""
+    value = float(value)
+    if not math.isfinite(value):
+        return "-"
+    if value != 0 and (abs(value) >= 1e6 or abs(value) < 10 ** -digits):
+        return f"{value:.3g}"
+    return f"{value:.{digits}f}"
+
+
+def format_table(headers: list[str], rows: list[list], *, digits: int = 1) -> str:
+    """Fixed-width text table; numbers right-aligned with ``digits`` decimals."""
+    cells = [[_cell(v, digits) for v in row] for row in rows]
+    numeric = [all(not isinstance(row[k], str) for row in rows) if rows else False
+               for k in range(len(headers))]
+    widths = [max([len(h)] + [len(r[k]) for r in cells]) for k, h in enumerate(headers)]
+
+    def line(values):
+        parts = [v.rjust(w) if numeric[k] else v.ljust(w) for k, (v, w) in enumerate(zip(values, widths))]
+        return "  ".join(parts).rstrip()
+
+    out = [line(headers), line(["-" * w for w in widths])]
+    out += [line(r) for r in cells]
+    return "\n".join(out)
+
+
+def _truncated(rows: list[list], limit: int) -> tuple[list[list], str]:
+    if len(rows) <= limit:
+        return rows, ""
+    return rows[:limit], f"... {len(rows) - limit} more (all of them with --json or -o DIR)"
+
+
+def bed_table_text(result: SteadyResult) -> str:
+    """Beds sorted by share, largest first: flow, share, node and perfusion pressure."""
+    beds = result.network.beds
+    if not len(beds):
+        return "no beds"
+    order = np.argsort(-np.nan_to_num(result.bed_share, nan=-1.0), kind="stable")
+    flow = from_si(result.bed_flow_m3_s, "flow", DISPLAY_UNITS["flow"])
+    pressure = from_si(result.bed_pressure_pa, "pressure", "mmHg")
+    perfusion = from_si(result.bed_perfusion_pressure_pa, "pressure", "mmHg")
+    rows = [[beds.ids[i], flow[i], 100 * result.bed_share[i], pressure[i], perfusion[i],
+             result.network.nodes.ids[beds.node[i]]] for i in order]
+    return format_table(["bed", f"flow [{DISPLAY_UNITS['flow']}]", "share [%]", "pressure [mmHg]",
+                         "perfusion [mmHg]", "node"], rows)
+
+
+def vessel_table_text(result: SteadyResult, limit: int = MAX_ROWS) -> str:
+    """Vessels in input order: flow, pressure drop, velocity, wall shear stress, Reynolds."""
+    v = result.network.vessels
+    flow = from_si(result.vessel_flow_m3_s, "flow", DISPLAY_UNITS["flow"])
+    drop = from_si(result.vessel_pressure_drop_pa, "pressure", "mmHg")
+    rows = [[v.ids[i], flow[i], drop[i], result.vessel_mean_velocity_m_s[i], result.vessel_wss_pa[i],
+             result.vessel_reynolds[i], "reversed" if result.vessel_reversed[i] else ""]
+            for i in range(len(v))]
+    rows, more = _truncated(rows, limit)
+    text = format_table(["vessel", f"flow [{DISPLAY_UNITS['flow']}]", "dP [mmHg]", "velocity [m/s]",
+                         "wss [Pa]", "Re", ""], rows, digits=2)
+    return text + ("\n" + more if more else "")
+
+
+def node_table_text(result: SteadyResult, limit: int = MAX_ROWS) -> str:
+    """Node pressures in input order."""
+    ids = result.network.nodes.ids
+    pressure = from_si(result.pressure_pa, "pressure", "mmHg")
+    rows, more = _truncated([[ids[i], pressure[i]] for i in range(len(ids))], limit)
+    return format_table(["node", "pressure [mmHg]"], rows, digits=2) + ("\n" + more if more else "")
+
+
+def solve_report(result: SteadyResult) -> str:
+    """The terminal report of ``vesselnet solve``: beds, vessels, nodes, checks, warnings."""
+    parts = [result.summary(), "", "Beds (largest share first)", bed_table_text(result), "",
+             "Vessels", vessel_table_text(result), "", "Nodes", node_table_text(result), "",
+             f"checks: mass balance {result.mass_balance:.1e}, law residual {result.law_residual:.1e},"
+             f" {result.iterations} Newton step(s), solver {result.solver}"]
+    parts += [f"warning: {w}" for w in result.warnings]
+    return "\n".join(parts)

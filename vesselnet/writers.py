@@ -1,0 +1,238 @@
+"""Results out: JSON (SPEC section 5), CSV tables, written atomically.
+
+Values are converted from SI to the display units once, here.  Floats are
+written with 10 significant digits so that the same input gives the same
+bytes; NaN becomes JSON ``null`` and an empty CSV cell.
+
+Examples
+--------
+>>> from vesselnet.model import Network
+>>> from vesselnet.solve import solve
+>>> net = Network.build(nodes={"r": {"pressure_pa": 13332.2}},
+...     vessels=[{"id": "a", "from": "r", "to": "t", "length_m": 0.1, "radius_m": 0.002}],
+...     beds=[{"id": "organ", "node": "t", "resistance_pa_s_m3": 1.3332e8}])
+>>> doc = result_json(solve(net))
+>>> doc["beds"][0]["id"], round(doc["beds"][0]["share"], 3), doc["units"]["flow"]
+('organ', 1.0, 'mL/min')
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+import os
+import tempfile
+from pathlib import Path
+
+import numpy as np
+
+from .result import SteadyResult
+from .units import DISPLAY_UNITS, from_si
+
+FORMAT_VERSION = 1
+SIGNIFICANT_DIGITS = 10
+
+# (output name, SI column of the result table, unit kind or None for plain numbers)
+NODE_COLUMNS = (("pressure", "pressure_pa", "pressure"), ("inflow", "inflow_m3_s", "flow"))
+VESSEL_COLUMNS = (("flow", "flow_m3_s", "flow"), ("pressure_drop", "pressure_drop_pa", "pressure"),
+                  ("mean_velocity", "mean_velocity_m_s", "velocity"), ("wss", "wss_pa", "wss"),
+                  ("reynolds", "reynolds", None), ("reversed", "reversed", None),
+                  ("resistance", "resistance_pa_s_m3", "resistance"),
+                  ("viscosity", "viscosity_pa_s", "viscosity"))
+BED_COLUMNS = (("flow", "flow_m3_s", "flow"), ("share", "share", None),
+               ("pressure", "pressure_pa", "pressure"),
+               ("perfusion_pressure", "perfusion_pressure_pa", "pressure"))
+EXTRA_KINDS = {"hematocrit": None, "tube_hematocrit": None, "red_cell_flux_m3_s": "flow"}
+
+
+def number(value):
+    """A JSON-ready number: 10 significant digits, NaN and infinities as None.
+
+    >>> number(0.1 + 0.2), number(float("nan")), number(np.int64(3))
+    (0.3, None, 3)
+    """
+    if isinstance(value, (bool, np.bool_)):
+        return bool(value)
+    if isinstance(value, (int, np.integer)):
+        return int(value)
+    value = float(value)
+    if not math.isfinite(value):
+        return None
+    return float(f"{value:.{SIGNIFICANT_DIGITS}g}")
+
+
+def units_map() -> dict[str, str]:
+    """The ``units`` map of every JSON result: the unit of each kind written."""
+    return dict(DISPLAY_UNITS)
+
+
+def _converted(table: dict[str, np.ndarray], columns) -> dict[str, np.ndarray]:
+    out = {}
+    for name, key, kind in columns:
+        if key not in table:
+            continue
+        values = table[key]
+        out[name] = from_si(values, kind, DISPLAY_UNITS[kind]) if kind else values
+    return out
+
+
+def _records(ids, fixed: dict[str, object], columns: dict[str, np.ndarray]) -> list[dict]:
+    records = []
+    for i, item in enumerate(ids):
+        record = {"id": item}
+        for key, values in fixed.items():
+            record[key] = values[i]
+        for key, values in columns.items():
+            record[key] = number(values[i])
+        records.append(record)
+    return records
+
+
+def nodes_json(result: SteadyResult) -> list[dict]:
+    """The ``nodes`` list: id, pressure (and boundary inflow where nonzero)."""
+    table = result.node_table()
+    cols = _converted(table, NODE_COLUMNS)
+    records = _records(table["id"].tolist(), {}, {"pressure": cols["pressure"]})
+    for record, inflow in zip(records, cols["inflow"]):
+        if inflow != 0:
+            record["inflow"] = number(inflow)
+    return records
+
+
+def vessel_columns(result: SteadyResult) -> dict[str, np.ndarray]:
+    """Per-vessel output columns in display units, extras included."""
+    table = result.vessel_table()
+    cols = _converted(table, VESSEL_COLUMNS)
+    for key, values in result.vessel_extra.items():
+        kind = EXTRA_KINDS.get(key)
+        name = key.removesuffix("_m3_s")
+        cols[name] = from_si(values, kind, DISPLAY_UNITS[kind]) if kind else values
+    return cols
+
+
+def vessels_json(result: SteadyResult) -> list[dict]:
+    """The ``vessels`` list: id, from, to, flow, pressure drop, velocity, wss, Reynolds, ..."""
+    table = result.vessel_table()
+    return _records(table["id"].tolist(), {"from": table["from"].tolist(), "to": table["to"].tolist()},
+                    vessel_columns(result))
+
+
+def beds_json(result: SteadyResult) -> list[dict]:
+    """The ``beds`` list: id, node, flow, share, pressure, perfusion pressure."""
+    table = result.bed_table()
+    return _records(table["id"].tolist(), {"node": table["node"].tolist()},
+                    _converted(table, BED_COLUMNS))
+
+
+def checks_json(result: SteadyResult) -> dict:
+    """The ``checks`` map: mass balance, law residual, iterations, solver, residual history."""
+    return {"mass_balance": number(result.mass_balance), "law_residual": number(result.law_residual),
+            "iterations": int(result.iterations), "solver": result.solver,
+            "residual_history": [number(h) for h in result.residual_history]}
+
+
+def result_json(result: SteadyResult) -> dict:
+    """The whole ``solve --json`` document (SPEC section 5)."""
+    return {"vesselnet": FORMAT_VERSION, "network": result.network.name, "units": units_map(),
+            "inflow": number(from_si(result.inflow_m3_s, "flow", DISPLAY_UNITS["flow"])),
+            "nodes": nodes_json(result), "vessels": vessels_json(result), "beds": beds_json(result),
+            "checks": checks_json(result), "warnings": list(result.warnings)}
+
+
+def dumps(document) -> str:
+    """JSON text with a fixed layout (same input, same bytes): one item a line.
+
+    >>> print(dumps({"a": 1, "items": [{"id": "x", "v": 2.5}]}))
+    {
+     "a": 1,
+     "items": [
+      {"id": "x", "v": 2.5}
+     ]
+    }
+    <BLANKLINE>
+    """
+    return _dump(document, 0) + "\n"
+
+
+def _dump(value, depth: int) -> str:
+    pad = " " * (depth + 1)
+    if isinstance(value, dict) and any(isinstance(v, (dict, list)) for v in value.values()):
+        items = [f"{pad}{json.dumps(str(k), ensure_ascii=False)}: {_dump(v, depth + 1)}"
+                 for k, v in value.items()]
+        return "{\n" + ",\n".join(items) + "\n" + " " * depth + "}"
+    if isinstance(value, list) and value and all(isinstance(v, (dict, list)) for v in value):
+        items = [pad + _dump(v, depth + 1) for v in value]
+        return "[\n" + ",\n".join(items) + "\n" + " " * depth + "]"
+    return json.dumps(value, ensure_ascii=False, allow_nan=False)
+
+
+def atomic_write(path, text: str) -> None:
+    """Write ``text`` to ``path`` through a temporary file and a rename.
+
+    An error or an interrupt leaves either the old file or none, never a
+    partial one.
+    """
+    path = Path(path)
+    handle, tmp = tempfile.mkstemp(dir=path.parent or ".", prefix=f".{path.name}.", suffix=".tmp")
+    try:
+        with os.fdopen(handle, "w", encoding="utf-8", newline="") as out:
+            out.write(text)
+        os.replace(tmp, path)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise
+
+
+def spreadsheet_safe(cell: str) -> str:
+    """Neutralise text that a spreadsheet would run as a formula.
+
+    >>> spreadsheet_safe("=HYPERLINK(1)"), spreadsheet_safe("sfa")
+    ("'=HYPERLINK(1)", 'sfa')
+    """
+    return "'" + cell if cell[:1] in ("=", "+", "-", "@", "\t", "\r") else cell
+
+
+def csv_text(ids, text_columns: dict[str, list], columns: dict[str, np.ndarray],
+             units: dict[str, str]) -> str:
+    """One CSV table: ``id`` first, then text columns, then numbers with ``name[unit]`` headers."""
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\n")
+    header = ["id"] + list(text_columns)
+    header += [f"{name}[{units[name]}]" if units.get(name) else name for name in columns]
+    writer.writerow(header)
+    for i, item in enumerate(ids):
+        row = [spreadsheet_safe(str(item))] + [spreadsheet_safe(str(c[i])) for c in text_columns.values()]
+        for values in columns.values():
+            value = number(values[i])
+            row.append("" if value is None else str(value).lower() if isinstance(value, bool) else repr(value))
+        writer.writerow(row)
+    return buffer.getvalue()
+
+
+def write_tables(result: SteadyResult, directory) -> list[Path]:
+    """Write ``nodes.csv``, ``vessels.csv`` and ``beds.csv`` (SPEC section 5) into ``directory``."""
+    directory = Path(directory)
+    directory.mkdir(parents=True, exist_ok=True)
+    kinds = {name: kind for name, _, kind in NODE_COLUMNS + VESSEL_COLUMNS + BED_COLUMNS}
+    kinds.update({k.removesuffix("_m3_s"): v for k, v in EXTRA_KINDS.items()})
+    units = {name: DISPLAY_UNITS[kind] for name, kind in kinds.items() if kind}
+    nodes = result.node_table()
+    vessels = result.vessel_table()
+    beds = result.bed_table()
+    texts = {
+        "nodes.csv": csv_text(nodes["id"], {}, _converted(nodes, NODE_COLUMNS), units),
+        "vessels.csv": csv_text(vessels["id"], {"from": list(vessels["from"]), "to": list(vessels["to"])},
+                                vessel_columns(result), units),
+        "beds.csv": csv_text(beds["id"], {"node": list(beds["node"])}, _converted(beds, BED_COLUMNS),
+                             units),
+    }
+    paths = []
+    for name, text in texts.items():
+        atomic_write(directory / name, text)
+        paths.append(directory / name)
+    return paths
