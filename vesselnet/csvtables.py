@@ -24,7 +24,7 @@ from pathlib import Path
 import numpy as np
 
 from .errors import Problem, UnitError
-from .fields import near_miss
+from .fields import has_control, near_miss
 from .units import factor
 
 # column name -> (model column, kind, rule); rule: "positive", "any", "fraction", "text"
@@ -96,7 +96,7 @@ def read_table(path, section: str, units: dict[str, str], *, shown_as: str | Non
     try:
         with open(Path(path), newline="", encoding="utf-8-sig") as handle:
             rows = list(csv.reader(handle))
-    except (OSError, UnicodeDecodeError, csv.Error) as exc:
+    except (OSError, UnicodeDecodeError, csv.Error, ValueError) as exc:
         problem(0, "", f"cannot read the table: {getattr(exc, 'strerror', None) or exc}",
                 "check the path (relative to the YAML file) and that it is UTF-8 CSV")
         return out
@@ -133,7 +133,13 @@ def read_table(path, section: str, units: dict[str, str], *, shown_as: str | Non
         target, kind, rule = spec[col_name]
         raw = cells[k]
         if rule == "text":
-            out.columns[target] = [c.strip() for c in raw]
+            out.columns[target] = texts = [c.strip() for c in raw]
+            needed = col_name in REQUIRED[section]
+            bad = [i for i, t in enumerate(texts) if has_control(t) or needed and not t]
+            for i in bad[:MAX_PROBLEMS_PER_COLUMN]:
+                what = "must not be empty" if not texts[i] else \
+                    f"must not contain control characters, got {texts[i]!r}"
+                problem(i + 2, f"row {i + 1} {col_name}", what)
             continue
         unit = col_units[k]
         try:

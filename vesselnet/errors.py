@@ -51,7 +51,11 @@ class Problem:
             if self.column:
                 where += f":{self.column}"
         text = f"{where} {self.item}: {self.message}" if self.item else f"{where}: {self.message}"
-        return f"{text}; {self.fix}" if self.fix else text
+        text = f"{text}; {self.fix}" if self.fix else text
+        return text.translate(_ESCAPES)  # one line, no terminal escapes from hostile input
+
+
+_ESCAPES = {c: f"\\x{c:02x}" for c in (*range(32), *range(127, 160))}
 
 
 class VesselnetError(Exception):

@@ -22,13 +22,25 @@ x.yaml:1:25 v: radius must be > 0, got 0 mm
 from __future__ import annotations
 
 import difflib
-import math
+import reprlib
 from collections.abc import Iterable
 
 from .errors import NetworkSpecError, Problem, UnitError
 from .units import DEFAULT_UNITS, to_si_value
 
 MISSING = object()
+
+
+def has_control(text: str) -> bool:
+    """True when ``text`` holds a control character (a line break, a tab, an escape).
+
+    >>> has_control("sfa left"), has_control("sfa\\n")
+    (False, True)
+    """
+    return not text.isprintable() and any(c in _CONTROL for c in text)
+
+
+_CONTROL = frozenset(chr(c) for c in (*range(32), *range(127, 160)))
 
 
 def near_miss(word: str, choices: Iterable[str]) -> str:
@@ -118,6 +130,10 @@ class FieldReader:
         if not text:
             self.add(self.where(mapping, key), item, f"'{key}' must not be empty")
             return default
+        if has_control(text):
+            self.add(self.where(mapping, key), item, f"'{key}' must not contain control "
+                     f"characters (line breaks, tabs, escapes), got {reprlib.repr(text)}")
+            return default
         return text
 
     def flag(self, mapping, key, item: str, default: bool = False) -> bool:
@@ -194,6 +210,4 @@ def _show(value) -> str:
         return "a list"
     if value is None:
         return "nothing"
-    if isinstance(value, float) and not math.isfinite(value):
-        return repr(value)
-    return repr(value)
+    return reprlib.repr(value)

@@ -22,6 +22,7 @@ import difflib
 import functools
 import math
 import re
+import reprlib
 
 from .errors import UnitError
 
@@ -166,21 +167,24 @@ def to_si_value(value: object, kind: str, default_unit: str | None = None) -> fl
     if isinstance(value, bool):
         raise UnitError(f"expected a number, got {value!r}")
     if isinstance(value, (int, float)):
-        number, unit = float(value), None
+        number, unit = float(value) if abs(value) < 1e308 else math.inf, None
     elif isinstance(value, str):
         match = _NUMBER.fullmatch(value)
         if not match:
-            raise UnitError(f"expected a number with an optional unit, got {value!r}")
+            raise UnitError(f"expected a number with an optional unit, got {reprlib.repr(value)}")
         number, unit = float(match.group(1)), match.group(2)
     else:
-        raise UnitError(f"expected a number, got {type(value).__name__} {value!r}")
+        raise UnitError(f"expected a number, got {type(value).__name__} {reprlib.repr(value)}")
     if not math.isfinite(number):
-        raise UnitError(f"expected a finite number, got {value!r}")
+        raise UnitError(f"expected a finite number, got {reprlib.repr(value)}")
     if not unit:
         if kind == "fraction":
             return number
         unit = default_unit or DEFAULT_UNITS[kind]
-    return number * factor(unit, kind)
+    si = number * factor(unit, kind)
+    if not math.isfinite(si):
+        raise UnitError(f"{reprlib.repr(value)} is too large to represent in SI units")
+    return si
 
 
 def from_si(value, kind: str, unit: str):

@@ -12,10 +12,11 @@ Differences from ``yaml.safe_load``, all on purpose:
 * a duplicate key is an error (PyYAML keeps the last silently);
 * tags other than the standard ones are refused, so nothing is constructed
   from a tag;
-* alias expansion and file size are bounded, so an alias bomb is refused
-  quickly instead of exhausting memory;
-* the garbage collector is paused while constructing (it makes large loads
-  superlinear).
+* alias expansion, nesting depth and file size are bounded, so an alias
+  bomb or a deeply nested document is refused quickly instead of
+  exhausting memory or the stack;
+* the garbage collector is paused while composing and constructing (it
+  makes large loads superlinear).
 
 Examples
 --------
@@ -42,7 +43,17 @@ MAX_ITEMS = 10_000_000
 """Largest number of values a document may expand to through aliases
 (alias-bomb guard; aliased parts are shared, never copied)."""
 
+MAX_DEPTH = 100
+"""Deepest nesting of mappings and lists accepted (network files need about six
+levels; PyYAML's composer recurses, and overflows the C stack near 10^5)."""
+
+MAX_INT_DIGITS = 300
+"""Longer integers are read as floats (Python refuses to convert integer text
+beyond 4300 digits, and floats end near 1e308)."""
+
 _Loader = getattr(yaml, "CSafeLoader", yaml.SafeLoader)
+_OPEN = (yaml.MappingStartEvent, yaml.SequenceStartEvent)
+_CLOSE = (yaml.MappingEndEvent, yaml.SequenceEndEvent)
 _INT = re.compile(r"[-+]?[0-9]+")
 _FLOAT = re.compile(r"[-+]?(\.[0-9]+|[0-9]+(\.[0-9]*)?)([eE][-+]?[0-9]+)?")
 _SPECIAL_FLOAT = {".inf": float("inf"), "+.inf": float("inf"), "-.inf": float("-inf"),
@@ -87,41 +98,55 @@ class _Builder:
     def __init__(self, file: str):
         self.file = file
         self.problems: list[Problem] = []
-        self.memo: dict[int, tuple[object, int]] = {}
+        self.memo: dict[int, tuple[object, int, int]] = {}
+        self.active: set[int] = set()
 
     def problem(self, node, message: str, fix: str = "") -> None:
         line, col = _mark(node)
         self.problems.append(Problem(self.file, line, col, "", message, fix))
 
-    def build(self, node) -> tuple[object, int]:
-        """Return (value, number of values it expands to)."""
+    def build(self, node) -> tuple[object, int, int]:
+        """Return (value, number of values it expands to, nesting depth)."""
         if isinstance(node, yaml.ScalarNode):
-            return self.scalar(node), 1
+            return self.scalar(node), 1, 0
         known = self.memo.get(id(node))
         if known is not None:
             return known
+        if id(node) in self.active:
+            self.problem(node, "an alias refers to a mapping or list that contains it",
+                         "write the value out instead of the alias")
+            return None, 1, 0
+        self.active.add(id(node))
         if isinstance(node, yaml.SequenceNode):
             self.check_tag(node, "seq")
-            out, size = LocatedList(), 1
+            out, size, depth = LocatedList(), 1, 0
             for item in node.value:
-                value, n = self.build(item)
+                value, n, d = self.build(item)
                 out.append(value)
                 size += n
+                depth = max(depth, d)
             out.file, (out.line, out.column) = self.file, _mark(node)
             out._where = [_mark(item) for item in node.value]
         else:
-            out, size = self.mapping(node)
+            out, size, depth = self.mapping(node)
+        depth += 1
+        self.active.discard(id(node))
         if size > MAX_ITEMS:
             raise NetworkSpecError([Problem(
                 self.file, *_mark(node), "",
                 f"aliases expand this document to more than {MAX_ITEMS:,} values",
                 "remove the nested aliases, or give large networks as tables")])
-        self.memo[id(node)] = (out, size)
-        return out, size
+        if depth > MAX_DEPTH:
+            raise NetworkSpecError([Problem(
+                self.file, *_mark(node), "",
+                f"aliases nest mappings and lists more than {MAX_DEPTH} levels deep",
+                "remove the nested aliases")])
+        self.memo[id(node)] = (out, size, depth)
+        return out, size, depth
 
-    def mapping(self, node) -> tuple[LocatedDict, int]:
+    def mapping(self, node) -> tuple[LocatedDict, int, int]:
         self.check_tag(node, "map")
-        out, size = LocatedDict(), 1
+        out, size, depth = LocatedDict(), 1, 0
         out.file, (out.line, out.column) = self.file, _mark(node)
         out._where, out._key_where = {}, {}
         for key_node, value_node in node.value:
@@ -129,20 +154,21 @@ class _Builder:
                 self.problem(key_node, "merge keys ('<<') are not supported",
                              "write the keys out")
                 continue
-            key, _ = self.build(key_node)
-            if isinstance(key, (dict, list)):
+            if not isinstance(key_node, yaml.ScalarNode):
                 self.problem(key_node, "a mapping key must be a plain value")
                 continue
+            key = self.scalar(key_node)
             if key in out:
                 first = out._key_where[key][0]
                 self.problem(key_node, f"duplicate key '{key}' (first given on line {first})",
                              "keep one of them")
                 continue
-            out[key], n = self.build(value_node)
+            out[key], n, d = self.build(value_node)
             size += n
+            depth = max(depth, d)
             out._where[key] = _mark(value_node)
             out._key_where[key] = _mark(key_node)
-        return out, size
+        return out, size, depth
 
     def check_tag(self, node, kind: str) -> None:
         if node.tag != _STANDARD + kind:
@@ -162,7 +188,7 @@ class _Builder:
         if text in ("false", "False", "FALSE"):
             return False
         if _INT.fullmatch(text):
-            return int(text)
+            return int(text) if len(text) <= MAX_INT_DIGITS else float(text)
         if _FLOAT.fullmatch(text):
             return float(text)
         if text in _SPECIAL_FLOAT:
@@ -194,7 +220,10 @@ def load_text(text: str, file: str = "<input>"):
         raise NetworkSpecError([Problem(file, 0, 0, "", f"the file is larger than "
                                         f"{MAX_BYTES // 2**20} MiB",
                                         "give large networks as tables (vessels_table:)")])
+    enabled = gc.isenabled()
+    gc.disable()
     try:
+        _check_depth(text, file)
         node = yaml.compose(text, Loader=_Loader)
     except yaml.MarkedYAMLError as exc:
         mark = exc.problem_mark or exc.context_mark
@@ -205,19 +234,36 @@ def load_text(text: str, file: str = "<input>"):
     except yaml.YAMLError as exc:
         raise NetworkSpecError([Problem(file, 0, 0, "", f"malformed YAML: {exc}",
                                         "check the file is YAML text")]) from None
-    if node is None:
-        return None
-    builder = _Builder(file)
-    enabled = gc.isenabled()
-    gc.disable()
-    try:
-        doc, _ = builder.build(node)
+    else:
+        if node is None:
+            return None
+        builder = _Builder(file)
+        doc, _, _ = builder.build(node)
     finally:
         if enabled:
             gc.enable()
     if builder.problems:
         raise NetworkSpecError(builder.problems)
     return doc
+
+
+def _check_depth(text: str, file: str) -> None:
+    """Refuse nesting deeper than :data:`MAX_DEPTH` before anything recurses.
+
+    Reads the event stream (libyaml's parser keeps an explicit stack) and
+    stops at the first level too deep.
+    """
+    depth = 0
+    for event in yaml.parse(text, Loader=_Loader):
+        if isinstance(event, _OPEN):
+            depth += 1
+            if depth > MAX_DEPTH:
+                line, col = event.start_mark.line + 1, event.start_mark.column + 1
+                raise NetworkSpecError([Problem(
+                    file, line, col, "", f"mappings and lists are nested more than "
+                    f"{MAX_DEPTH} levels deep", "a network file needs only a few levels")])
+        elif isinstance(event, _CLOSE):
+            depth -= 1
 
 
 def load_file(path) -> object:
