@@ -237,7 +237,8 @@ def non_convergence(network: Network, imbalance, free, history) -> SolveError:
     trail = ", ".join(f"{h:.1e}" for h in history[-5:])
     return SolveError(f"the steady solve did not converge in {len(history) - 1} Newton steps: "
                       f"largest flow imbalance {history[-1]:.2e} of the total inflow, at node "
-                      f"'{node}' (last residuals {trail}); check lesions, distensible walls and extreme values near it",
+                      f"'{node}' (last residuals {trail}); check lesions, distensible walls and "
+                      "extreme values near it",
                       ids=(node,))
 
 
