@@ -224,3 +224,24 @@ def test_examples_run(module):
     import importlib
 
     assert doctest.testmod(importlib.import_module(module)).failed == 0
+
+
+@pytest.mark.parametrize("modulus, thickness, radius, speed, compliance", [
+    (0.4e6, 1.5e-3, 12.5e-3, 5.494, 1.5340e-9),    # REFERENCES 5.3 table [C], nu = 0.5, L = 0.1 m
+    (0.8e6, 0.6e-3, 3e-3, 10.031, 2.6507e-11),
+    (1.0e6, 0.5e-3, 2e-3, 12.539, 7.5398e-12),
+])
+def test_law_matches_moens_korteweg_and_tethered_compliance(modulus, thickness, radius, speed,
+                                                           compliance):
+    """REFERENCES 10.10: the wall-law convention must give Moens-Korteweg.  The slope of the
+    square-root law at A0 (finite differences of the volume of a 0.1 m tube at rest) is the
+    tethered compliance 3 pi r^3 L / (2 E h), and c^2 = (A/rho) dP/dA is c0 / sqrt(1 - nu^2)
+    (REFERENCES 5.3 check values [C]; the same convention as vesselnet.wall)."""
+    k = wall_stiffness(radius, thickness, modulus, 0.5)
+    step = 1.0
+    volume = [float(distensible_volume(p, p, radius, k, 0.0, 0.1)) for p in (-step, step)]
+    c_segment = (volume[1] - volume[0]) / (2 * step)
+    assert c_segment == pytest.approx(compliance, rel=1e-4)
+    area = math.pi * radius**2
+    c = math.sqrt(area / 1060.0 / (c_segment / 0.1))
+    assert c == pytest.approx(speed, rel=1e-4)
