@@ -110,20 +110,116 @@ def solve_sparse(A: sp.spmatrix, rhs: np.ndarray) -> np.ndarray:
     ndarray
         The solution.
 
+    Raises
+    ------
+    SolveError
+        The matrix is singular.
+
     Notes
     -----
     The matrix is scaled to ``D A D`` with ``D = diag(|A_ii|)^(-1/2)`` and
     factorised with the symmetric ordering ``MMD_AT_PLUS_A``: the default
-    column ordering is tens of times slower on nodal matrices.
+    column ordering is tens of times slower on nodal matrices.  See
+    :class:`ScaledFactor`, which also estimates the condition number.
     """
-    import scipy.sparse.linalg as spla
+    return ScaledFactor(A).solve(rhs)
 
-    n = A.shape[0]
-    if n == 0:
-        return np.zeros(0, dtype=rhs.dtype)
-    diag = np.abs(A.diagonal())
-    d = 1.0 / np.sqrt(np.where(diag > 0, diag, 1.0))
-    D = sp.diags(d)
-    scaled = (D @ A @ D).tocsc()
-    lu = spla.splu(scaled, permc_spec="MMD_AT_PLUS_A")
-    return d * lu.solve(d * rhs)
+
+class ScaledFactor:
+    """SuperLU factor of the symmetrically scaled matrix ``D A D`` (see :func:`solve_sparse`).
+
+    Parameters
+    ----------
+    A : sparse matrix, shape (n, n)
+        Real or complex.
+
+    Raises
+    ------
+    SolveError
+        The matrix is singular (a zero or infinite conductance, or a part
+        with no pressure reference).
+
+    Examples
+    --------
+    >>> import numpy as np, scipy.sparse as sp
+    >>> A = sp.csc_matrix(np.array([[1e20, -1.0], [-1.0, 2.0]]))
+    >>> factor = ScaledFactor(A)
+    >>> x = factor.solve(np.array([1.0, 1.0]))
+    >>> bool(np.allclose(A @ x, [1.0, 1.0], rtol=1e-14)), factor.condition_estimate() < 10
+    (True, True)
+    """
+
+    def __init__(self, A: sp.spmatrix):
+        import scipy.sparse.linalg as spla
+
+        from .errors import SolveError
+
+        self.n = A.shape[0]
+        diag = np.abs(A.diagonal())
+        with np.errstate(divide="ignore", invalid="ignore"):
+            d = 1.0 / np.sqrt(np.where(diag > 0, diag, 1.0))
+        self.d = d
+        self.scaled = (sp.diags(d) @ A @ sp.diags(d)).tocsc()
+        self.lu = None
+        if self.n == 0:
+            return
+        if not np.isfinite(self.scaled.data).all():
+            raise SolveError("the nodal matrix holds an infinite or undefined conductance; "
+                             "check for zero or extreme lengths, radii and resistances")
+        try:
+            self.lu = spla.splu(self.scaled, permc_spec="MMD_AT_PLUS_A")
+        except RuntimeError as exc:  # SuperLU: "Factor is exactly singular"
+            raise SolveError(f"the nodal matrix is singular ({exc}); a part of the network is "
+                             "held only by zero conductances, or extreme values underflow") from None
+
+    def solve(self, rhs: np.ndarray) -> np.ndarray:
+        """The solution of ``A x = rhs``."""
+        if self.n == 0:
+            return np.zeros(0, dtype=rhs.dtype)
+        return self.d * self.lu.solve(self.d * rhs)
+
+    def condition_estimate(self) -> float:
+        """1-norm condition number of the scaled matrix ``S = D A D``.
+
+        ``||S||_1 * ||S^-1||_1``.  For a nodal matrix of positive
+        conductances (an M-matrix: positive diagonal, off-diagonal entries
+        <= 0, diagonally dominant) the inverse is entrywise nonnegative, so
+        ``||S^-1||_1 = max(S^-T e)`` exactly, from one solve (Higham 2002,
+        Accuracy and Stability of Numerical Algorithms, sec. 8.3).  Other
+        matrices (complex, or laws that break the sign pattern) get Higham's
+        block estimate (:func:`scipy.sparse.linalg.onenormest`).  A solution
+        carries about ``16 - log10(condition)`` trustworthy digits.
+        """
+        import scipy.sparse.linalg as spla
+
+        if self.n == 0:
+            return 1.0
+        S = self.scaled
+        norm = float(abs(S).sum(axis=0).max())
+        if _is_m_matrix(S, self.d):
+            y = self.lu.solve(np.ones(self.n), trans="T")
+            if (y > 0).all():
+                return norm * float(y.max())
+        if self.n <= 4:
+            return float(np.linalg.cond(S.toarray(), 1))
+        lu = self.lu
+        trans = "H" if np.iscomplexobj(S.data) else "T"
+        inverse = spla.LinearOperator((self.n, self.n), dtype=S.dtype, matvec=lu.solve,
+                                      rmatvec=lambda x: lu.solve(x, trans=trans))
+        return norm * float(spla.onenormest(inverse))
+
+
+def _is_m_matrix(S: sp.csc_matrix, d: np.ndarray) -> bool:
+    """Whether ``S = D A D`` comes from a real, diagonally dominant Z-matrix ``A``.
+
+    Off-diagonal entries <= 0, diagonal > 0, and the column sums of ``A``,
+    ``(S^T d^-1)_j / d_j``, nonnegative up to rounding.
+    """
+    if np.iscomplexobj(S.data):
+        return False
+    coo = S.tocoo()
+    off = coo.row != coo.col
+    if (coo.data[off] > 0).any() or (coo.data[~off] <= 0).any():
+        return False
+    sums = S.T @ (1.0 / d)
+    return bool((sums >= -1e-12 * S.diagonal() / d).all())

@@ -58,6 +58,8 @@ class SteadyResult:
         Things the user should know (flows outside the laminar range, parts cut off).
     vessel_extra : mapping of str to ndarray
         Further per-vessel results of other physics (for example ``hematocrit``).
+    condition_estimate : float
+        1-norm condition number of the last scaled nodal matrix (NaN when nothing was solved).
     """
 
     network: Network
@@ -74,6 +76,7 @@ class SteadyResult:
     solver: str
     warnings: tuple[str, ...] = ()
     vessel_extra: Mapping[str, np.ndarray] = field(default_factory=dict)
+    condition_estimate: float = float("nan")
 
     @functools.cached_property
     def inflow_m3_s(self) -> float:

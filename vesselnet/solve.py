@@ -26,7 +26,7 @@ import dataclasses
 
 import numpy as np
 
-from .assembly import NodalPattern, solve_sparse
+from .assembly import NodalPattern, ScaledFactor
 from .elements import ElementGroup, LinearLaw, QuadraticLaw
 from .errors import SolveError
 from .model import Network
@@ -42,11 +42,22 @@ DEFAULT_TOLERANCE = 1e-10
 
 DEFAULT_MAX_ITERATIONS = 50
 
+CONDITION_LIMIT = 1e10
+"""Above this condition estimate of the scaled nodal matrix a warning says how many digits
+the pressures can be trusted to (about 16 - log10(condition); 6 here)."""
+
+STAGNANT = 1024 * np.finfo(float).eps ** 2
+"""A pressure drop below this fraction of the pressure is rounding: the flow is set to 0."""
+
+STALL_STEPS = 4
+"""Newton gives up after this many steps in a row that reduce the imbalance by less than 1 %."""
+
 
 def vessel_resistance(network: Network, viscosity_pa_s: np.ndarray) -> np.ndarray:
     """Linear (Poiseuille or taper) resistance of every vessel, lesions ignored (Pa*s/m^3)."""
     v = network.vessels
-    return tapered_resistance(v.length_m, v.radius_in_m, v.radius_out_m, viscosity_pa_s)
+    with np.errstate(over="ignore", under="ignore", divide="ignore", invalid="ignore"):
+        return tapered_resistance(v.length_m, v.radius_in_m, v.radius_out_m, viscosity_pa_s)
 
 
 def element_groups(network: Network, viscosity_pa_s: np.ndarray, *,
@@ -173,8 +184,10 @@ def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s
         np.where(fixed, nodes.pressure_pa, np.nan_to_num(initial_pressure_pa))
     pressure[cut_off] = np.nan
 
-    def evaluate(p):
-        parts_ = [g.evaluate(np.nan_to_num(p)) for g in groups]
+    low = np.zeros(n)  # pressure = pressure + low, a double-double (see group_flows)
+
+    def evaluate(p, p_low):
+        parts_ = [group_flows(g, np.nan_to_num(p), p_low) for g in groups]
         q = np.concatenate([x[0] for x in parts_])
         dqa = np.concatenate([x[1] for x in parts_])
         dqb = np.concatenate([x[2] for x in parts_])
@@ -182,25 +195,94 @@ def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s
         return q, dqa, dqb, imbalance
 
     history: list[float] = []
-    q, dqa, dqb, imbalance = evaluate(pressure)
-    iterations = 0
+    q, dqa, dqb, imbalance = evaluate(pressure, low)
+    check_conductances(network, groups, dqa, cut_off)
+    iterations, stalled, factor = 0, 0, None
     while True:
         scale = flow_scale(q, injection)
         worst = float(np.abs(imbalance[free]).max(initial=0.0)) / scale
+        stalled = stalled + 1 if history and worst > 0.99 * history[-1] else 0
         history.append(worst)
         if iterations > 0 and worst <= tolerance or not free.any():
             break
-        if iterations >= max_iterations:
-            raise non_convergence(network, imbalance, free, history)
+        if iterations >= max_iterations or stalled >= STALL_STEPS:
+            raise non_convergence(network, imbalance, free, history, factor, dqa)
         J = pattern.matrix(dqa, dqb, -dqa, -dqb)
-        step = solve_sparse(J, -imbalance[free])
-        pressure, q, dqa, dqb, imbalance = line_search(pressure, step, free, evaluate, worst, scale)
+        factor = ScaledFactor(J)
+        step = factor.solve(-imbalance[free])
+        (pressure, low), q, dqa, dqb, imbalance = line_search((pressure, low), step, free, evaluate,
+                                                              worst, scale)
         iterations += 1
         if not np.isfinite(pressure[free]).all():
             raise SolveError("the linear solve returned non-finite pressures; the system is "
                              "singular or too badly conditioned")
+    condition = factor.condition_estimate() if factor is not None else float("nan")
     return finish(network, groups, pressure, q, imbalance, free, fixed, cut_off, viscosity_pa_s,
-                  iterations, history)
+                  iterations, history, condition=condition)
+
+
+def group_flows(group: ElementGroup, high: np.ndarray, low: np.ndarray):
+    """(q, dq/dp_a, dq/dp_b) of a group at the double-double pressures ``high + low``.
+
+    Notes
+    -----
+    A conductance 10^16 times its neighbours' carries its flow across a
+    pressure drop below the rounding of the pressures themselves: from
+    plain doubles the law gets noise and Newton stalls.  Pressures are
+    therefore kept as unevaluated sums ``high + low`` of two doubles (Dekker
+    1971, A floating-point technique for extending the available precision),
+    and a law of the drop alone (linear, lesion) gets the drop
+    ``(high_a - high_b) + (low_a - low_b)``, whose first difference is exact
+    for nearby pressures (Sterbenz 1974).  Newton's steps are then iterative
+    refinement with a residual of about 32 digits.  A drop within the
+    rounding of that (:data:`STAGNANT` of the pressure) counts as none: the
+    vessel is stagnant and its flow exactly 0.  Other laws get the pressures
+    rounded to doubles.
+    """
+    if not isinstance(group.law, (LinearLaw, QuadraticLaw)):
+        return group.evaluate(high + low)
+    grounded = group.b < 0
+    b = np.maximum(group.b, 0)
+    high_b = np.where(grounded, group.ground_pa, high[b])
+    drop = (high[group.a] - high_b) + (low[group.a] - np.where(grounded, 0.0, low[b]))
+    level = np.maximum(np.abs(high[group.a]), np.abs(high_b))
+    drop = np.where(np.abs(drop) <= STAGNANT * level, 0.0, drop)
+    return group.law.evaluate(drop, np.zeros_like(drop))
+
+
+def add_step(high: np.ndarray, low: np.ndarray, rows: np.ndarray, step: np.ndarray):
+    """``(high + low)[rows] += step`` in double-double arithmetic (Knuth's two-sum).
+
+    >>> import numpy as np
+    >>> h, l = add_step(np.array([1.0]), np.array([0.0]), np.array([0]), np.array([1e-20]))
+    >>> float(h[0]), float(l[0])
+    (1.0, 1e-20)
+    """
+    high, low = high.copy(), low.copy()
+    x, y = high[rows], step
+    total = x + y
+    back = total - x
+    error = (x - (total - back)) + (y - back) + low[rows]
+    high[rows] = total + error
+    low[rows] = error - (high[rows] - total)
+    return high, low
+
+
+def check_conductances(network: Network, groups, slope, cut_off) -> None:
+    """Refuse elements whose conductance is infinite, undefined or (for linear laws) zero."""
+    offset, bad = 0, []
+    for g in groups:
+        s = slope[offset: offset + len(g.a)]
+        offset += len(g.a)
+        wrong = ~np.isfinite(s) | (s == 0 if isinstance(g.law, LinearLaw) else False)
+        wrong &= ~cut_off[g.a]
+        ids = network.vessels.ids if g.kind == "vessel" else network.beds.ids
+        bad += [f"{g.kind} '{ids[r]}'" for r in g.rows[wrong]]
+    if bad:
+        more = f" and {len(bad) - 5} more" if len(bad) > 5 else ""
+        raise SolveError(f"{', '.join(bad[:5])}{more}: the resistance is zero, infinite or "
+                         "undefined in double precision (an extreme length, radius or resistance); "
+                         "check the values and their units", ids=tuple(bad))
 
 
 def initial_pressure(network: Network, groups, fixed: np.ndarray) -> np.ndarray:
@@ -217,24 +299,41 @@ def flow_scale(q: np.ndarray, injection: np.ndarray) -> float:
 
 
 def line_search(pressure, step, free, evaluate, worst, scale, max_halvings=12):
-    """Take the Newton step, halving it while the imbalance grows."""
+    """Take the Newton step, halving it while the imbalance grows.
+
+    ``pressure`` is the pair (high, low) of double-double pressures.
+    """
     fraction = 1.0
+    rows = np.flatnonzero(free)
     for _ in range(max_halvings):
-        trial = pressure.copy()
-        trial[free] += fraction * step
-        q, dqa, dqb, imbalance = evaluate(trial)
+        trial = add_step(*pressure, rows, fraction * step)
+        q, dqa, dqb, imbalance = evaluate(*trial)
         if float(np.abs(imbalance[free]).max(initial=0.0)) / scale <= max(worst, 1e-300) * 1.0001:
             break
         fraction /= 2
     return trial, q, dqa, dqb, imbalance
 
 
-def non_convergence(network: Network, imbalance, free, history) -> SolveError:
-    """The error for a Newton solve that did not converge, naming the worst node."""
+def non_convergence(network: Network, imbalance, free, history, factor=None,
+                    slope=None) -> SolveError:
+    """The error for a Newton solve that did not converge, naming the worst node.
+
+    A solve that stalled says so, with the condition estimate and the spread
+    of the conductances, the usual reasons.
+    """
     rows = np.flatnonzero(free)
     worst = rows[int(np.argmax(np.abs(imbalance[rows])))]
     node = network.nodes.ids[worst]
     trail = ", ".join(f"{h:.1e}" for h in history[-5:])
+    if len(history) > STALL_STEPS and min(history[-STALL_STEPS - 1:]) > 0.99 * history[-STALL_STEPS - 1]:
+        size = np.abs(slope[np.isfinite(slope) & (slope != 0)]) if slope is not None else ()
+        spread = f", conductances spanning {size.max() / size.min():.1e}" if len(size) else ""
+        cond = f"condition estimate {factor.condition_estimate():.1e}" if factor else ""
+        return SolveError(f"the steady solve stalled after {len(history) - 1} Newton steps at a "
+                          f"flow imbalance of {history[-1]:.2e} of the total inflow, at node "
+                          f"'{node}' ({cond}{spread}): double precision cannot resolve this "
+                          "network; check for extreme lengths, radii or resistances, or a unit "
+                          "slip", ids=(node,))
     return SolveError(f"the steady solve did not converge in {len(history) - 1} Newton steps: "
                       f"largest flow imbalance {history[-1]:.2e} of the total inflow, at node "
                       f"'{node}' (last residuals {trail}); check lesions, distensible walls and "
@@ -243,8 +342,11 @@ def non_convergence(network: Network, imbalance, free, history) -> SolveError:
 
 
 def finish(network, groups, pressure, q, imbalance, free, fixed, cut_off, viscosity_pa_s,
-           iterations, history) -> SteadyResult:
-    """Map element flows back to vessels and beds and check the invariants."""
+           iterations, history, condition=float("nan")) -> SteadyResult:
+    """Map element flows back to vessels and beds and check the invariants.
+
+    ``condition`` is the condition estimate of the last scaled Jacobian.
+    """
     v = network.vessels
     vessel_flow = np.zeros(len(v))
     bed_flow = np.zeros(len(network.beds))
@@ -273,7 +375,8 @@ def finish(network, groups, pressure, q, imbalance, free, fixed, cut_off, viscos
         boundary_inflow_m3_s=boundary, vessel_viscosity_pa_s=viscosity_pa_s,
         vessel_resistance_pa_s_m3=effective, iterations=iterations,
         residual_history=tuple(history), mass_balance=mass_balance,
-        law_residual=law_error / drop_scale, solver="superlu (MMD_AT_PLUS_A ordering)")
+        law_residual=law_error / drop_scale, solver="superlu (MMD_AT_PLUS_A ordering)",
+        condition_estimate=condition)
     warnings = laminar_warnings(network, result.vessel_reynolds)
     if cut_off.any():
         names = ", ".join(f"'{network.nodes.ids[i]}'" for i in np.flatnonzero(cut_off)[:8])
@@ -282,4 +385,9 @@ def finish(network, groups, pressure, q, imbalance, free, fixed, cut_off, viscos
     if mass_balance > 1e-6:
         warnings.append(f"mass balance {mass_balance:.1e}: the solve lost accuracy; check for extreme"
                         " radius or length ratios")
+    if condition > CONDITION_LIMIT:
+        digits = max(0, int(16 - np.log10(condition)))
+        warnings.append(f"condition estimate {condition:.1e} of the scaled nodal matrix: pressures "
+                        f"may carry only about {digits} significant digits; check for extreme "
+                        "radius or length ratios")
     return dataclasses.replace(result, warnings=tuple(warnings))

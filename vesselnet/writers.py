@@ -76,7 +76,7 @@ def number(value):
     value = float(value)
     if not math.isfinite(value):
         return None
-    return float(f"{value:.{SIGNIFICANT_DIGITS}g}")
+    return float(f"{value:.{SIGNIFICANT_DIGITS}g}") + 0.0  # + 0.0: no negative zero
 
 
 def units_map() -> dict[str, str]:
@@ -146,7 +146,8 @@ def checks_json(result: SteadyResult) -> dict:
     """The ``checks`` map: mass balance, law residual, iterations, solver, residual history."""
     return {"mass_balance": number(result.mass_balance), "law_residual": number(result.law_residual),
             "iterations": int(result.iterations), "solver": result.solver,
-            "residual_history": [number(h) for h in result.residual_history]}
+            "residual_history": [number(h) for h in result.residual_history],
+            "condition": number(result.condition_estimate)}
 
 
 def result_json(result: SteadyResult) -> dict:
