@@ -60,6 +60,17 @@ class QuadraticLaw:
         return self.resistance * q + self.quadratic * q * np.abs(q)
 
 
+def law_drop_error(law, drop, q) -> np.ndarray:
+    """How far each element's (pressure drop, flow) is off its law, in Pa.
+
+    ``|drop - law.pressure_drop(q)|``, unless the law defines its own
+    ``drop_error(drop, q)`` (a law that is not invertible in q, such as an
+    autoregulating bed that holds its flow over a range of drops).
+    """
+    custom = getattr(law, "drop_error", None)
+    return custom(drop, q) if custom is not None else np.abs(drop - law.pressure_drop(q))
+
+
 @dataclass(frozen=True, eq=False)
 class ElementGroup:
     """Elements sharing one law: terminals, ground pressures, and what they stand for.
