@@ -315,8 +315,11 @@ def finish(network, groups, pressure, q, imbalance, free, fixed, cut_off, viscos
     warnings = laminar_warnings(network, result.vessel_reynolds)
     if cut_off.any():
         names = ", ".join(f"'{network.nodes.ids[i]}'" for i in np.flatnonzero(cut_off)[:8])
+        dropped = np.nansum(network.nodes.inflow_m3_s[cut_off])
+        lost = (f"; their prescribed inflow of {dropped * 6e7:.4g} mL/min has nowhere to go and was "
+                "left out too") if dropped else ""
         warnings.append(f"{int(cut_off.sum())} nodes are cut off from every pressure reference and "
-                        f"were left out (pressures undetermined, flows zero): {names}")
+                        f"were left out (pressures undetermined, flows zero): {names}{lost}")
     if mass_balance > 1e-6:
         warnings.append(f"mass balance {mass_balance:.1e}: the solve lost accuracy; check for extreme"
                         " radius or length ratios")
