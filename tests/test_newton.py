@@ -78,13 +78,13 @@ def test_one_sparse_structure_per_solve(monkeypatch):
             super().__init__(*args, **kwargs)
 
     monkeypatch.setattr(solve_module, "NodalPattern", Counting)
-    result = solve(lesion_tree(11))
+    result = solve(lesion_tree(4099))
     assert result.iterations >= 3 and len(built) == 1
 
 
 def test_no_convergence_is_a_solve_error_naming_the_worst_node():
     """A step cap too low for the lesions: SolveError with the residual and the node."""
-    net = lesion_tree(12)
+    net = lesion_tree(5381)
     with pytest.raises(SolveError, match=r"did not converge in 1 Newton steps: largest flow imbalance "
                                          r"[0-9.e+-]+ of the total inflow, at node 'n\d+'") as caught:
         solve(net, max_iterations=1)
