@@ -78,17 +78,23 @@ class AutoregulatedLaw:
         slope = np.where(holding, 0.0, g)
         return q, slope, -slope
 
-    def pressure_drop(self, q):
-        """The smallest pressure drop that gives flow ``q``: q R_min (Pa).
+    drop_dependent = True
+    """The law is not invertible in q: residual checks pass the actual drop."""
 
-        An exhausted bed's drop is exactly this; a holding bed's may be larger.
+    def pressure_drop(self, q, drop=None):
+        """The pressure drop (Pa) the law gives with flow ``q``.
+
+        Without ``drop``: the smallest drop that gives ``q``, q R_min (an
+        exhausted bed's drop; a holding bed's may be larger).  With the actual
+        ``drop``: ``drop - (q_law(drop) - q) R_min``, which equals ``drop``
+        exactly when ``(drop, q)`` is on the law, so that ``|drop - result|``
+        measures how far off it is, in Pa.
         """
-        return np.asarray(q) * self.min_resistance_pa_s_m3
-
-    def drop_error(self, drop, q):
-        """How far ``(drop, q)`` is off the law, as a pressure: |q_law(drop) - q| R_min (Pa)."""
-        q_law = np.minimum(self.target_flow_m3_s, drop / self.min_resistance_pa_s_m3)
-        return np.abs(q_law - q) * self.min_resistance_pa_s_m3
+        r_min = self.min_resistance_pa_s_m3
+        if drop is None:
+            return np.asarray(q) * r_min
+        q_law = np.minimum(self.target_flow_m3_s, drop / r_min)
+        return drop - (q_law - q) * r_min
 
 
 def autoregulating(beds) -> np.ndarray:

@@ -11,7 +11,7 @@ from __future__ import annotations
 from importlib import resources
 from pathlib import Path
 
-DEMOS = ("whole_body", "leg", "collateral")
+DEMOS = ("whole_body", "leg", "collateral", "venous_return")
 """The demo networks `vesselnet demo` solves, in order."""
 
 

@@ -33,7 +33,7 @@ from .units import DEFAULT_UNITS, MMHG_PA, factor
 
 FORMAT_VERSION = 1
 TOP_KEYS = ("vesselnet", "name", "description", "units", "blood", "venous_pressure", "nodes",
-            "vessels", "beds", "vessels_table", "beds_table", "nodes_table")
+            "vessels", "beds", "vessels_table", "beds_table", "nodes_table", "distensible")
 VESSEL_KEYS = ("id", "from", "to", "length", "radius", "diameter", "wall", "tags", "stenosis")
 WALL_KEYS = ("thickness", "modulus", "poisson", "distensible", "external_pressure")
 STENOSIS_KEYS = ("reduction", "length", "at")
@@ -98,6 +98,7 @@ def read_network(doc, file: str, base_dir: Path) -> Network:
                                              shown_as=path)
                 fr.problems.extend(table.problems)
                 _append(into, table.columns, table.tags, tags)
+    read_distensible(fr, doc, vessels, tags)
     if not fr.problems and not vessels["id"]:
         fr.add((doc.line, doc.column), "vessels", "the network has no vessels",
                "list at least one vessel under 'vessels:'")
@@ -493,3 +494,51 @@ def _duplicates(fr: FieldReader, cols, section: str) -> None:
 
 def _name(fr: FieldReader, doc, file: str) -> str:
     return fr.text(doc, "name", "name", default=Path(file).stem) or Path(file).stem
+
+
+def read_distensible(fr: FieldReader, doc, vessels, tags) -> None:
+    """Top-level ``distensible: {tags: [..] | all: true, external_pressure: P}`` (opt-in by tag).
+
+    Marks the selected vessels (YAML and table rows) distensible, except
+    those whose own wall says ``distensible: false``; ``external_pressure``
+    applies to the selected vessels whose wall gives none.  Every selected
+    vessel needs a wall thickness and modulus.
+    """
+    spec = fr.mapping(doc, "distensible", "distensible")
+    if spec is None:
+        return
+    item = "distensible"
+    fr.allow(spec, ("tags", "all", "external_pressure"), item)
+    n = len(vessels["id"])
+    if ("tags" in spec) == ("all" in spec):
+        fr.add(doc.where("distensible"), item, "give exactly one of 'tags' and 'all'",
+               "'tags: [venous]' selects tagged vessels, 'all: true' every vessel")
+        return
+    selected = np.zeros(n, dtype=bool)
+    if "all" in spec:
+        selected[:] = fr.flag(spec, "all", item)
+    else:
+        names = read_tags(fr, spec, item)
+        for name in names:
+            if name in tags:
+                selected[tags[name]] = True
+            else:
+                fr.add(spec.where("tags"), item, f"no vessel carries the tag '{name}'",
+                       near_miss(name, tags) or "tag the vessels or fix the name")
+    own = [v.get("wall") if isinstance(v, dict) and isinstance(v.get("wall"), dict) else {}
+           for v in doc.get("vessels") or () if isinstance(v, dict)]
+    own += [{}] * (n - len(own))
+    selected &= np.array([w.get("distensible", True) is not False for w in own], dtype=bool)
+    external = fr.quantity(spec, "external_pressure", "pressure", item)
+    lacking = [vessels["id"][i] for i in np.flatnonzero(selected)
+               if not (vessels["wall_thickness_m"][i] > 0 and vessels["wall_modulus_pa"][i] > 0)]
+    if lacking:
+        shown = ", ".join(f"'{x}'" for x in lacking[:5]) + (" ..." if len(lacking) > 5 else "")
+        fr.add(doc.where("distensible"), item,
+               f"{len(lacking)} selected vessel(s) lack a wall thickness or modulus: {shown}",
+               "give them 'wall: {thickness: , modulus: }' (or table columns wall_thickness, "
+               "wall_modulus), or narrow the selection")
+    for i in np.flatnonzero(selected):
+        vessels["distensible"][i] = True
+        if not np.isnan(external) and "external_pressure" not in own[i]:
+            vessels["external_pressure_pa"][i] = external

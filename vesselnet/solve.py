@@ -28,13 +28,15 @@ import numpy as np
 
 from .assembly import NodalPattern, solve_sparse
 from .autoregulation import AutoregulatedLaw
-from .elements import ElementGroup, LinearLaw, QuadraticLaw, law_drop_error
+from .elements import ElementGroup, LinearLaw, QuadraticLaw
 from .errors import SolveError
 from .model import Network
 from .resistance import tapered_resistance
 from .result import SteadyResult, laminar_warnings
 from .stenosis import young_tsai_coefficients
 from .topology import connected_parts
+from .tubelaw import DistensibleLaw
+from .walls import distensible_group, rigid_groups, with_wall_outputs
 
 DEFAULT_TOLERANCE = 1e-10
 """Newton stops when the largest nodal imbalance is below this fraction of the total inflow."""
@@ -64,9 +66,11 @@ def element_groups(network: Network, viscosity_pa_s: np.ndarray, *,
     -------
     list of ElementGroup
         Open lesion-free vessels (linear), vessels with a lesion (quadratic:
-        the Young-Tsai lesion in series with the rest of the vessel), fixed
-        beds (linear, to their outflow pressure or outflow node) and
-        autoregulating beds with a target flow (:mod:`vesselnet.autoregulation`).
+        the Young-Tsai lesion in series with the rest of the vessel),
+        distensible lesion-free vessels (square-root wall law, see
+        :mod:`vesselnet.walls`), fixed beds (linear, to their outflow
+        pressure or outflow node) and autoregulating beds with a target flow
+        (:mod:`vesselnet.autoregulation`).
 
     Notes
     -----
@@ -80,7 +84,8 @@ def element_groups(network: Network, viscosity_pa_s: np.ndarray, *,
         else np.asarray(resistance_pa_s_m3, dtype=float)
     open_ = ~v.occluded
     lesion = open_ & ~np.isnan(v.stenosis_reduction)
-    plain = np.flatnonzero(open_ & ~lesion)
+    distensible = open_ & ~lesion & v.distensible
+    plain = np.flatnonzero(open_ & ~lesion & ~distensible)
     no_ground = np.full(len(plain), np.nan)
     groups = [ElementGroup("vessel", plain, v.from_node[plain], v.to_node[plain], no_ground,
                            LinearLaw(1.0 / resistance[plain]))]
@@ -90,6 +95,9 @@ def element_groups(network: Network, viscosity_pa_s: np.ndarray, *,
         groups.append(ElementGroup("vessel", rows, v.from_node[rows], v.to_node[rows],
                                    np.full(len(rows), np.nan),
                                    QuadraticLaw(upstream + downstream + r_v, k_t)))
+    if distensible.any():
+        groups.append(distensible_group(network, np.flatnonzero(distensible), viscosity_pa_s,
+                                        resistance))
     auto = np.isfinite(beds.min_resistance_pa_s_m3) & np.isfinite(beds.target_flow_m3_s)
     bed_rows = np.flatnonzero(~auto)
     groups.append(ElementGroup("bed", bed_rows, beds.node[bed_rows], beds.outflow_node[bed_rows],
@@ -183,18 +191,27 @@ def solve(network: Network, *, viscosity_pa_s: np.ndarray | None = None,
         viscosity_pa_s = np.full(n_vessels, network.blood.viscosity_pa_s)
     viscosity_pa_s = np.asarray(viscosity_pa_s, dtype=float)
     groups = element_groups(network, viscosity_pa_s)
-    return solve_groups(network, groups, viscosity_pa_s=viscosity_pa_s, tolerance=tolerance,
-                        max_iterations=max_iterations)
+    start = None
+    if any(isinstance(g.law, DistensibleLaw) for g in groups):   # Newton from the rigid solution
+        start = solve_groups(network, rigid_groups(groups), viscosity_pa_s=viscosity_pa_s,
+                             tolerance=tolerance, max_iterations=max_iterations).pressure_pa
+    result = solve_groups(network, groups, viscosity_pa_s=viscosity_pa_s, tolerance=tolerance,
+                          max_iterations=max_iterations, initial_pressure_pa=start)
+    if start is not None:
+        result = dataclasses.replace(result, solver=result.solver + ", from the rigid-wall solution")
+    return with_wall_outputs(result, groups)
 
 
 def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s: np.ndarray,
                  tolerance: float = DEFAULT_TOLERANCE,
-                 max_iterations: int = DEFAULT_MAX_ITERATIONS) -> SteadyResult:
+                 max_iterations: int = DEFAULT_MAX_ITERATIONS,
+                 initial_pressure_pa: np.ndarray | None = None) -> SteadyResult:
     """Newton solve of given element groups on ``network``'s nodes (see :func:`solve`).
 
     Parts of the network cut off from every pressure reference (possible
     after an occlusion) are left out: their pressures are NaN, their flows
-    zero, and a warning names them.
+    zero, and a warning names them.  ``initial_pressure_pa`` (per node)
+    replaces the default start, the mean of the reference pressures.
     """
     nodes = network.nodes
     n = len(nodes)
@@ -206,7 +223,8 @@ def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s
     b = np.concatenate([g.b for g in groups])
     pattern = NodalPattern(n, a, b, free)
     injection = np.where(np.isnan(nodes.inflow_m3_s) | cut_off, 0.0, nodes.inflow_m3_s)
-    pressure = initial_pressure(network, groups, fixed)
+    pressure = initial_pressure(network, groups, fixed) if initial_pressure_pa is None else \
+        np.where(fixed, nodes.pressure_pa, np.nan_to_num(initial_pressure_pa))
     pressure[cut_off] = np.nan
 
     def evaluate(p):
@@ -278,7 +296,8 @@ def non_convergence(network: Network, imbalance, free, history) -> SolveError:
     trail = ", ".join(f"{h:.1e}" for h in history[-5:])
     return SolveError(f"the steady solve did not converge in {len(history) - 1} Newton steps: "
                       f"largest flow imbalance {history[-1]:.2e} of the total inflow, at node "
-                      f"'{node}' (last residuals {trail}); check lesions and extreme values near it",
+                      f"'{node}' (last residuals {trail}); check lesions, distensible walls and "
+                      "extreme values near it",
                       ids=(node,))
 
 
@@ -297,11 +316,13 @@ def finish(network, groups, pressure, q, imbalance, free, fixed, cut_off, viscos
         offset += len(g.a)
         (vessel_flow if g.kind == "vessel" else bed_flow)[g.rows] = flows
         drop = g.pressure_drop(np.nan_to_num(pressure))
-        law_error = max(law_error, float(law_drop_error(g.law, drop, flows).max(initial=0.0)))
+        law_drop = g.law_pressure_drop(np.nan_to_num(pressure), flows)
+        law_error = max(law_error, float(np.abs(drop - law_drop).max(initial=0.0)))
         drop_scale = max(drop_scale, float(np.abs(drop).max(initial=0.0)))
-        if g.kind == "vessel" and isinstance(g.law, QuadraticLaw):
+        if g.kind == "vessel" and not isinstance(g.law, LinearLaw):
             safe = np.where(flows != 0, flows, 1.0)
-            effective[g.rows] = np.where(flows != 0, drop / safe, g.law.resistance)
+            slope = g.evaluate(np.nan_to_num(pressure))[1]
+            effective[g.rows] = np.where(flows != 0, drop / safe, 1.0 / slope)
     injection = np.where(np.isnan(network.nodes.inflow_m3_s) | cut_off, 0.0, network.nodes.inflow_m3_s)
     boundary = np.where(fixed, imbalance + injection, injection)
     total_in = max(float(boundary[boundary > 0].sum() - bed_flow[(bed_flow < 0)].sum()), 1e-300)
