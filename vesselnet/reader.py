@@ -38,7 +38,8 @@ VESSEL_KEYS = ("id", "from", "to", "length", "radius", "diameter", "wall", "tags
 WALL_KEYS = ("thickness", "modulus", "poisson", "distensible", "external_pressure")
 STENOSIS_KEYS = ("reduction", "length", "at")
 NODE_KEYS = ("pressure", "inflow", "position", "target_pressure")
-BED_KEYS = ("id", "node", "resistance", "outflow_pressure", "outflow_node", "share", "windkessel")
+BED_KEYS = ("id", "node", "resistance", "outflow_pressure", "outflow_node", "share", "windkessel",
+            "autoregulation")
 BLOOD_KEYS = ("viscosity", "density", "hematocrit", "separation")
 VISCOSITY_LAWS = ("constant", "pries-vitro", "pries-vivo")
 SEPARATION_LAWS = ("none", "pries-1990", "pries-2005")
@@ -364,7 +365,8 @@ def read_beds(fr: FieldReader, doc) -> dict[str, list]:
     """The ``beds:`` list as SI columns."""
     cols = {k: [] for k in ("id", "node", "resistance_pa_s_m3", "outflow_pressure_pa",
                             "outflow_node", "share", "windkessel_proximal_pa_s_m3",
-                            "windkessel_compliance_m3_pa", "line")}
+                            "windkessel_compliance_m3_pa", "line", "target_flow_m3_s",
+                            "min_resistance_pa_s_m3")}
     items = fr.sequence(doc, "beds", "beds")
     for i, b in enumerate(items or ()):
         label = f"beds[{i}]"
@@ -398,7 +400,46 @@ def read_beds(fr: FieldReader, doc) -> dict[str, list]:
             fr.quantity(wk, "compliance", "compliance", label + " windkessel", required=bool(wk),
                         positive=True))
         cols["line"].append(b.line)
+        target, minimum = read_autoregulation(fr, b, label, resistance)
+        cols["target_flow_m3_s"].append(target)
+        cols["min_resistance_pa_s_m3"].append(minimum)
     return cols
+
+
+def read_autoregulation(fr: FieldReader, b, label: str, resistance: float) -> tuple[float, float]:
+    """A bed's ``autoregulation: {min_resistance: R | reserve: x, target_flow: Q}`` in SI.
+
+    Returns (target flow, minimum resistance), NaN when absent; ``reserve``
+    is the resting over the minimum resistance (>= 1).
+    """
+    auto = fr.mapping(b, "autoregulation", label)
+    if auto is None:
+        return NAN, NAN
+    item = label + " autoregulation"
+    fr.allow(auto, ("min_resistance", "reserve", "target_flow"), item)
+    target = fr.quantity(auto, "target_flow", "flow", item, positive=True)
+    given = [k for k in ("min_resistance", "reserve") if k in auto]
+    if len(given) != 1:
+        fr.add(b.where("autoregulation"), item,
+               "give exactly one of 'min_resistance' and 'reserve'" if given else
+               "missing key 'min_resistance'",
+               "" if given else "add 'min_resistance:' (the fully dilated bed's resistance) or "
+               "'reserve:' (resting over minimum resistance, for example 4)")
+        return target, NAN
+    if given[0] == "reserve":
+        reserve = fr.quantity(auto, "reserve", "fraction", item, positive=True)
+        if reserve < 1:
+            fr.add(auto.where("reserve"), item, f"reserve must be at least 1, got {reserve:g}",
+                   "the fully dilated bed cannot resist more than the resting one")
+            return target, NAN
+        return target, resistance / reserve
+    minimum = fr.quantity(auto, "min_resistance", "resistance", item, positive=True)
+    if minimum > resistance:
+        fr.add(auto.where("min_resistance"), item,
+               "min_resistance is above the bed's resting resistance",
+               "the fully dilated bed resists less: lower it, or use 'reserve:'")
+        return target, NAN
+    return target, minimum
 
 
 def _append(into: dict[str, list], columns: dict[str, object], table_tags, tags) -> None:

@@ -27,6 +27,7 @@ import dataclasses
 import numpy as np
 
 from .assembly import NodalPattern, ScaledFactor
+from .autoregulation import AutoregulatedLaw
 from .elements import ElementGroup, LinearLaw, QuadraticLaw
 from .errors import SolveError
 from .model import Network
@@ -78,14 +79,16 @@ def element_groups(network: Network, viscosity_pa_s: np.ndarray, *,
         Open lesion-free vessels (linear), vessels with a lesion (quadratic:
         the Young-Tsai lesion in series with the rest of the vessel),
         distensible lesion-free vessels (square-root wall law, see
-        :mod:`vesselnet.walls`) and beds (linear, to their outflow pressure
-        or outflow node).
+        :mod:`vesselnet.walls`), fixed beds (linear, to their outflow
+        pressure or outflow node) and autoregulating beds with a target flow
+        (:mod:`vesselnet.autoregulation`).
 
     Notes
     -----
-    A lesion of length Ls on a vessel of length L replaces the fraction Ls/L
-    of the vessel's linear resistance by the lesion law; its unobstructed
-    diameter is the vessel's diameter at the lesion's position ``at``.
+    A lesion of length Ls replaces its stretch of the vessel's linear
+    resistance by the lesion law (see :func:`lesion_coefficients`).
+    Autoregulating beds whose target is still unresolved (NaN) are linear at
+    their resting resistance: in their own baseline they hold that flow.
     """
     v, beds = network.vessels, network.beds
     resistance = vessel_resistance(network, viscosity_pa_s) if resistance_pa_s_m3 is None \
@@ -99,21 +102,72 @@ def element_groups(network: Network, viscosity_pa_s: np.ndarray, *,
                            LinearLaw(1.0 / resistance[plain]))]
     rows = np.flatnonzero(lesion)
     if len(rows):
-        at = v.stenosis_at[rows]
-        d0 = 2.0 * (v.radius_in_m[rows] * (1 - at) + v.radius_out_m[rows] * at)
-        ds = d0 * (1.0 - v.stenosis_reduction[rows])
-        r_v, k_t = young_tsai_coefficients(d0, ds, v.stenosis_length_m[rows], viscosity_pa_s[rows],
-                                           network.blood.density_kg_m3)
-        rest = resistance[rows] * (1.0 - v.stenosis_length_m[rows] / v.length_m[rows])
+        r_v, k_t, upstream, downstream = lesion_coefficients(network, rows, viscosity_pa_s, resistance)
         groups.append(ElementGroup("vessel", rows, v.from_node[rows], v.to_node[rows],
-                                   np.full(len(rows), np.nan), QuadraticLaw(rest + r_v, k_t)))
+                                   np.full(len(rows), np.nan),
+                                   QuadraticLaw(upstream + downstream + r_v, k_t)))
     if distensible.any():
         groups.append(distensible_group(network, np.flatnonzero(distensible), viscosity_pa_s,
                                         resistance))
-    bed_rows = np.arange(len(beds))
-    groups.append(ElementGroup("bed", bed_rows, beds.node, beds.outflow_node,
-                               beds.outflow_pressure_pa, LinearLaw(1.0 / beds.resistance_pa_s_m3)))
+    auto = np.isfinite(beds.min_resistance_pa_s_m3) & np.isfinite(beds.target_flow_m3_s)
+    bed_rows = np.flatnonzero(~auto)
+    groups.append(ElementGroup("bed", bed_rows, beds.node[bed_rows], beds.outflow_node[bed_rows],
+                               beds.outflow_pressure_pa[bed_rows],
+                               LinearLaw(1.0 / beds.resistance_pa_s_m3[bed_rows])))
+    auto_rows = np.flatnonzero(auto)
+    if len(auto_rows):
+        groups.append(ElementGroup("bed", auto_rows, beds.node[auto_rows], beds.outflow_node[auto_rows],
+                                   beds.outflow_pressure_pa[auto_rows],
+                                   AutoregulatedLaw(beds.target_flow_m3_s[auto_rows],
+                                                    beds.min_resistance_pa_s_m3[auto_rows])))
     return groups
+
+
+def lesion_coefficients(network: Network, rows: np.ndarray, viscosity_pa_s: np.ndarray,
+                        resistance_pa_s_m3: np.ndarray):
+    """Young-Tsai coefficients of the lesions on vessel ``rows`` and the healthy rest of each vessel.
+
+    Parameters
+    ----------
+    network : Network
+    rows : ndarray of int
+        Vessels with a lesion.
+    viscosity_pa_s, resistance_pa_s_m3 : ndarray, shape (n_vessels,)
+        Viscosity and linear (lesion-free) resistance of every vessel.
+
+    Returns
+    -------
+    r_v, k_t : ndarray
+        The lesion law dP = r_v Q + k_t Q|Q| (see :mod:`vesselnet.stenosis`).
+    upstream, downstream : ndarray
+        Linear resistance of the healthy vessel before and after the lesion (Pa*s/m^3).
+
+    Notes
+    -----
+    The lesion occupies [s, s + Ls] along the vessel, centred at ``at`` x L
+    and kept inside it: s = clip(at L - Ls/2, 0, L - Ls).  Its unobstructed
+    diameter is the (tapered) diameter at its centre.  The healthy pieces
+    take the share of the vessel's resistance that the taper integral gives
+    their stretches, so splitting a vessel outside its lesion changes nothing.
+    """
+    v = network.vessels
+    length, lesion_length = v.length_m[rows], v.stenosis_length_m[rows]
+    r_in, r_out = v.radius_in_m[rows], v.radius_out_m[rows]
+    start = np.clip(v.stenosis_at[rows] * length - lesion_length / 2, 0.0, length - lesion_length)
+    end = start + lesion_length
+
+    def radius(x):
+        return r_in + (r_out - r_in) * x / length
+
+    d0 = 2.0 * radius(start + lesion_length / 2)
+    ds = d0 * (1.0 - v.stenosis_reduction[rows])
+    r_v, k_t = young_tsai_coefficients(d0, ds, lesion_length, viscosity_pa_s[rows],
+                                       network.blood.density_kg_m3)
+    whole = tapered_resistance(length, r_in, r_out, 1.0)
+    upstream = tapered_resistance(start, r_in, radius(start), 1.0) / whole
+    downstream = tapered_resistance(length - end, radius(end), r_out, 1.0) / whole
+    resistance = np.asarray(resistance_pa_s_m3, dtype=float)[rows]
+    return r_v, k_t, resistance * upstream, resistance * downstream
 
 
 def solve(network: Network, *, viscosity_pa_s: np.ndarray | None = None,
@@ -208,7 +262,12 @@ def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s
         if iterations >= max_iterations or stalled >= STALL_STEPS:
             raise non_convergence(network, imbalance, free, history, factor, dqa)
         J = pattern.matrix(dqa, dqb, -dqa, -dqb)
-        factor = ScaledFactor(J)
+        try:
+            factor = ScaledFactor(J)
+        except SolveError as exc:
+            raise SolveError(f"{exc}; or some part's pressure level is set by nothing (for example "
+                             "a prescribed inflow with every bed holding its autoregulated flow): "
+                             "give it a fixed pressure or a fixed bed") from None
         step = factor.solve(-imbalance[free])
         (pressure, low), q, dqa, dqb, imbalance = line_search((pressure, low), step, free, evaluate,
                                                               worst, scale)
@@ -380,8 +439,11 @@ def finish(network, groups, pressure, q, imbalance, free, fixed, cut_off, viscos
     warnings = laminar_warnings(network, result.vessel_reynolds)
     if cut_off.any():
         names = ", ".join(f"'{network.nodes.ids[i]}'" for i in np.flatnonzero(cut_off)[:8])
+        dropped = np.nansum(network.nodes.inflow_m3_s[cut_off])
+        lost = (f"; their prescribed inflow of {dropped * 6e7:.4g} mL/min has nowhere to go and was "
+                "left out too") if dropped else ""
         warnings.append(f"{int(cut_off.sum())} nodes are cut off from every pressure reference and "
-                        f"were left out (pressures undetermined, flows zero): {names}")
+                        f"were left out (pressures undetermined, flows zero): {names}{lost}")
     if mass_balance > 1e-6:
         warnings.append(f"mass balance {mass_balance:.1e}: the solve lost accuracy; check for extreme"
                         " radius or length ratios")
