@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import csv
 import re
+import reprlib
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -149,10 +150,11 @@ def read_table(path, section: str, units: dict[str, str], *, shown_as: str | Non
             problem(1, f"column '{header[k]}'", str(exc))
             continue
         values = _numbers(raw, lambda i, text: problem(i + 2, f"row {i + 1} {col_name}",
-                                                       f"not a number: {text!r}"))
+                                                       f"not a number: {reprlib.repr(text)}"))
         if values is None:
             continue
-        values = values * scale
+        with np.errstate(over="ignore"):  # overflow gives inf, refused below
+            values = values * scale
         bad = {"positive": ~(np.isfinite(values) & (values > 0)),
                "any": np.isinf(values),
                "fraction": ~((values >= 0) & (values <= 1)) & ~np.isnan(values)}[rule]
@@ -167,6 +169,11 @@ def read_table(path, section: str, units: dict[str, str], *, shown_as: str | Non
 def _numbers(raw, report) -> np.ndarray | None:
     """Floats of a column; blanks become NaN; ``report(row, text)`` for bad cells."""
     texts = [c.strip() or "nan" for c in raw]
+    typed_nan = [i for i, c in enumerate(raw) if c.strip().lower().lstrip("+-") == "nan"]
+    for i in typed_nan[:MAX_PROBLEMS_PER_COLUMN]:
+        report(i, raw[i].strip() + " (leave the cell empty for no value)")
+    if typed_nan:
+        return None
     try:
         values = np.array(texts, dtype=float)
     except ValueError:
