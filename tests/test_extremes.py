@@ -351,3 +351,21 @@ def test_occlusion_cut_off_through_compare_exits_0(tmp_path, capsys):
     captured = capsys.readouterr()
     assert "cut off from every pressure reference" in captured.err
     json.loads(captured.out)
+
+
+def test_network_where_nothing_flows(tmp_path, capsys):
+    """Found by the fuzzer: the fixed-pressure part is a dead end and the part with the beds
+    has no source, so nothing flows.  Flows are 0, shares undefined (null, shown as '-'), a
+    warning says why; it was an internal error (nanargmax of all-NaN shares)."""
+    (tmp_path / "net.yaml").write_text("vesselnet: 1\nvessels_table: vessels.csv\nnodes:\n"
+                                       "  root: {pressure: 100}\nbeds_table: beds.csv\n")
+    (tmp_path / "vessels.csv").write_text("id,from,to,length,radius\nroot,root,a,1.0,1.0\n"
+                                          "a,b,00,1.0,1.0\nloop5,b,0,1.0,1.0\n")
+    (tmp_path / "beds.csv").write_text("id,node,resistance\nbed4,0,1.0\nbed5,00,1.0\n")
+    assert main(["solve", str(tmp_path / "net.yaml")]) == 0
+    captured = capsys.readouterr()
+    assert "no flow enters the network" in captured.out + captured.err
+    assert main(["solve", str(tmp_path / "net.yaml"), "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert [b["share"] for b in doc["beds"]] == [None, None]
+    assert all(v["flow"] == 0.0 for v in doc["vessels"])

@@ -149,8 +149,8 @@ def read_table(path, section: str, units: dict[str, str], *, shown_as: str | Non
         except UnitError as exc:
             problem(1, f"column '{header[k]}'", str(exc))
             continue
-        values = _numbers(raw, lambda i, text: problem(i + 2, f"row {i + 1} {col_name}",
-                                                       f"not a number: {reprlib.repr(text)}"))
+        values = _numbers(raw, lambda i, text, fix="": problem(
+            i + 2, f"row {i + 1} {col_name}", f"not a number: {reprlib.repr(text)}", fix))
         if values is None:
             continue
         with np.errstate(over="ignore"):  # overflow gives inf, refused below
@@ -171,7 +171,7 @@ def _numbers(raw, report) -> np.ndarray | None:
     texts = [c.strip() or "nan" for c in raw]
     typed_nan = [i for i, c in enumerate(raw) if c.strip().lower().lstrip("+-") == "nan"]
     for i in typed_nan[:MAX_PROBLEMS_PER_COLUMN]:
-        report(i, raw[i].strip() + " (leave the cell empty for no value)")
+        report(i, raw[i].strip(), "leave the cell empty for no value")
     if typed_nan:
         return None
     try:

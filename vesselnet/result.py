@@ -187,7 +187,7 @@ class SteadyResult:
         beds = self.network.beds
         text = f"{self.network.name}: inflow {inflow:.1f} mL/min, {len(beds)} bed"
         text += "s" if len(beds) != 1 else ""
-        if len(beds):
+        if np.isfinite(self.bed_share).any():  # shares are NaN when nothing flows in
             k = int(np.nanargmax(self.bed_share))
             text += f", largest share {beds.ids[k]} {100 * self.bed_share[k]:.1f} %"
         mean_p = ""

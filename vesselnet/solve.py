@@ -460,6 +460,9 @@ def finish(network, groups, pressure, q, imbalance, free, fixed, cut_off, viscos
     if mass_balance > 1e-6:
         warnings.append(f"mass balance {mass_balance:.1e}: the solve lost accuracy; check for extreme"
                         " radius or length ratios")
+    if not result.inflow_m3_s > 0:
+        warnings.append("no flow enters the network (no prescribed inflow, and no pressure drives "
+                        "flow from a fixed node to a bed): bed shares are undefined")
     if condition > CONDITION_LIMIT:
         digits = max(0, int(16 - np.log10(condition)))
         warnings.append(f"condition estimate {condition:.1e} of the scaled nodal matrix: a plain "

@@ -206,20 +206,56 @@ def atomic_write(path, text: str) -> None:
     """Write ``text`` to ``path`` through a temporary file and a rename.
 
     An error or an interrupt leaves either the old file or none, never a
-    partial one.
+    partial one (the temporary file is removed).  The new file gets the old
+    one's permissions, or the usual ones (``0o666`` less the umask), and
+    reaches the disk before the rename.
     """
-    path = Path(path)
-    handle, tmp = tempfile.mkstemp(dir=path.parent or ".", prefix=f".{path.name}.", suffix=".tmp")
+    atomic_write_many({path: text})
+
+
+def atomic_write_many(texts) -> None:
+    """Write several files so that an error or interrupt changes none of them.
+
+    Every text goes to a temporary file beside its target first; only when
+    all are written are they renamed into place, one quick rename each.
+
+    Parameters
+    ----------
+    texts : mapping of path to str
+    """
+    temporary: list[tuple[str, Path]] = []
     try:
-        with os.fdopen(handle, "w", encoding="utf-8", newline="") as out:
-            out.write(text)
-        os.replace(tmp, path)
+        for path, text in texts.items():
+            path = Path(path)
+            handle, tmp = tempfile.mkstemp(dir=path.parent or ".", prefix=f".{path.name}.",
+                                           suffix=".tmp")
+            temporary.append((tmp, path))
+            with os.fdopen(handle, "w", encoding="utf-8", newline="") as out:
+                out.write(text)
+                out.flush()
+                os.fsync(out.fileno())
+            os.chmod(tmp, _mode_for(path))
+        while temporary:
+            tmp, path = temporary[0]
+            os.replace(tmp, path)
+            temporary.pop(0)
     except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
+        for tmp, _ in temporary:
+            try:
+                os.unlink(tmp)
+            except OSError:
+                pass
         raise
+
+
+def _mode_for(path: Path) -> int:
+    """Permissions for a new file at ``path``: the existing file's, else 0o666 less the umask."""
+    try:
+        return os.stat(path).st_mode & 0o7777
+    except OSError:
+        mask = os.umask(0)
+        os.umask(mask)
+        return 0o666 & ~mask
 
 
 def spreadsheet_safe(cell: str) -> str:
@@ -265,8 +301,5 @@ def write_tables(result: SteadyResult, directory) -> list[Path]:
         "beds.csv": csv_text(beds["id"], {"node": list(beds["node"])}, _converted(beds, BED_COLUMNS),
                              units),
     }
-    paths = []
-    for name, text in texts.items():
-        atomic_write(directory / name, text)
-        paths.append(directory / name)
-    return paths
+    atomic_write_many({directory / name: text for name, text in texts.items()})
+    return [directory / name for name in texts]

@@ -67,11 +67,14 @@ def main(argv: list[str] | None = None) -> int:
         _error(f"{exc.filename or ''}: file not found; check the path".lstrip(": ")
                if exc.filename else str(exc))
         return EXIT_INPUT
-    except KeyboardInterrupt:
-        _error("interrupted; no output file was left half-written")
+    except KeyboardInterrupt as exc:  # an Interrupted (vesselnet.interrupts) says how far it got
+        _error(str(exc) or "interrupted; no output file was left half-written")
         return 130
     except BrokenPipeError:
         return EXIT_OK
+    except OSError as exc:  # an output path that cannot be written, a file that cannot be read
+        _error(f"{exc.filename or ''}: {exc.strerror or exc}; check the path".lstrip(": "))
+        return EXIT_INPUT
     except Exception as exc:  # a bug: say so in one paragraph, traceback on request
         if os.environ.get("VESSELNET_DEBUG"):
             raise
