@@ -173,3 +173,16 @@ def test_bad_table_cells(rows, message, tmp_path, capsys):
     """CSV tables: a typed 'nan', an overflowing number, an empty reference, a line break in an
     id, a ragged row, a cell beyond the csv module's field limit."""
     assert message in table_case(tmp_path, capsys, rows)
+
+
+@pytest.mark.parametrize(("bed_rows", "message"), [
+    ("id,node,resistance\norgan,tip,10\nextra,nowhere,10\n",
+     "beds.csv:3 beds[1] 'extra': node 'nowhere' is not joined by any vessel"),
+    ("id,node,resistance\norgan,tip,10\norgan,tip,20\n", "beds.csv:3 beds[1] 'organ': duplicate id"),
+])
+def test_problems_of_table_rows_name_the_table(bed_rows, message, tmp_path, capsys):
+    """Found by the fuzzer: a bad reference in a table row was reported at the YAML file with
+    the table's line number."""
+    (tmp_path / "beds.csv").write_text(bed_rows)
+    err, _ = check(tmp_path, capsys, HEAD + VESSEL + "beds_table: beds.csv\n")
+    assert message in err and "net.yaml:3 beds" not in err

@@ -20,6 +20,7 @@ Examples
 
 from __future__ import annotations
 
+import dataclasses
 from pathlib import Path
 
 import numpy as np
@@ -90,6 +91,7 @@ def read_network(doc, file: str, base_dir: Path) -> Network:
     vessels, tags = read_vessels(fr, doc)
     nodes, waveforms = read_nodes(fr, doc)
     beds = read_beds(fr, doc)
+    origins = {}  # section -> (first row from its table, table file): problems name the table
     for key, into in (("vessels_table", vessels), ("nodes_table", nodes), ("beds_table", beds)):
         if key in doc:
             path = fr.text(doc, key, key)
@@ -97,17 +99,20 @@ def read_network(doc, file: str, base_dir: Path) -> Network:
                 table = csvtables.read_table(base_dir / path, key.split("_")[0], fr.units,
                                              shown_as=path)
                 fr.problems.extend(table.problems)
+                origins[key.split("_")[0]] = (len(into["id"]), path)
                 _append(into, table.columns, table.tags, tags)
     read_distensible(fr, doc, vessels, tags)
     if not fr.problems and not vessels["id"]:
         fr.add((doc.line, doc.column), "vessels", "the network has no vessels",
                "list at least one vessel under 'vessels:'")
-    check_references(fr, vessels, nodes, beds)
+    check_references(fr, vessels, nodes, beds, origins)
     fr.raise_if_any()
     network = Network.from_columns(
         vessels=vessels, nodes=nodes, beds=beds, tags=tags, name=_name(fr, doc, file),
         blood=blood, venous_pressure_pa=venous, source=file, inflow_waveforms=waveforms)
     problems = topology_problems(network)
+    if problems and origins:  # their lines may be table rows: give the nodes, not a wrong place
+        problems = [dataclasses.replace(p, line=0, column=0) for p in problems]
     if problems:
         raise NetworkSpecError(problems)
     return network
@@ -458,36 +463,46 @@ def _append(into: dict[str, list], columns: dict[str, object], table_tags, tags)
         tags.setdefault(tag, []).extend(int(r) + offset for r in rows)
 
 
-def check_references(fr: FieldReader, vessels, nodes, beds) -> None:
-    """Unique ids, no self-loops, every referenced node reached by a vessel."""
+def check_references(fr: FieldReader, vessels, nodes, beds, origins=None) -> None:
+    """Unique ids, no self-loops, every referenced node reached by a vessel.
+
+    ``origins`` maps a section to (first row read from its table, table
+    file), so that problems of table rows name the table and its line.
+    """
     touched = set(vessels["from"]) | set(vessels["to"])
-    _duplicates(fr, vessels, "vessels")
-    _duplicates(fr, beds, "beds")
+
+    def add(section, cols, i, item, message, fix=""):
+        start, table = (origins or {}).get(section, (None, None))
+        line = int(cols["line"][i])
+        if start is not None and i >= start:
+            fr.problems.append(Problem(table, line, 0, item, message, fix))
+        else:
+            fr.add((line, 0), item, message, fix)
+
+    _duplicates(add, vessels, "vessels")
+    _duplicates(add, beds, "beds")
     for i, (vid, a, b) in enumerate(zip(vessels["id"], vessels["from"], vessels["to"])):
         if a and a == b:
-            fr.add((int(vessels["line"][i]), 0), f"vessels[{i}] '{vid}'",
-                   f"the vessel starts and ends at node '{a}' (a self-loop)",
-                   "join two different nodes")
+            add("vessels", vessels, i, f"vessels[{i}] '{vid}'",
+                f"the vessel starts and ends at node '{a}' (a self-loop)", "join two different nodes")
     for i, node_id in enumerate(nodes["id"]):
         if node_id not in touched:
-            fr.add((int(nodes["line"][i]), 0), f"nodes '{node_id}'",
-                   "no vessel joins this node", near_miss(node_id, touched) or
-                   "join it with a vessel or remove it")
+            add("nodes", nodes, i, f"nodes '{node_id}'", "no vessel joins this node",
+                near_miss(node_id, touched) or "join it with a vessel or remove it")
     for i, bid in enumerate(beds["id"]):
         for key in ("node", "outflow_node"):
             ref = beds[key][i]
             if ref and ref not in touched:
-                fr.add((int(beds["line"][i]), 0), f"beds[{i}] '{bid}'",
-                       f"{key} '{ref}' is not joined by any vessel",
-                       near_miss(ref, touched) or "name a node that a vessel joins")
+                add("beds", beds, i, f"beds[{i}] '{bid}'", f"{key} '{ref}' is not joined by any vessel",
+                    near_miss(ref, touched) or "name a node that a vessel joins")
 
 
-def _duplicates(fr: FieldReader, cols, section: str) -> None:
+def _duplicates(add, cols, section: str) -> None:
     seen: dict[str, int] = {}
     for i, item in enumerate(cols["id"]):
         if item in seen:
-            fr.add((int(cols["line"][i]), 0), f"{section}[{i}] '{item}'",
-                   f"duplicate id (also {section}[{seen[item]}])", "give each item its own id")
+            add(section, cols, i, f"{section}[{i}] '{item}'",
+                f"duplicate id (also {section}[{seen[item]}])", "give each item its own id")
         else:
             seen[item] = i
 
