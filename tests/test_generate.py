@@ -123,6 +123,8 @@ def test_command_writes_files_that_read_back_and_solve(tmp_path, capsys):
     np.testing.assert_allclose(read.nodes.position_m, made.nodes.position_m, rtol=1e-9, atol=1e-15)
     np.testing.assert_allclose(read.beds.resistance_pa_s_m3, made.beds.resistance_pa_s_m3, rtol=1e-9)
     assert read.blood == made.blood
+    np.testing.assert_array_equal(read.nodes.hematocrit, made.nodes.hematocrit)   # NaN = NaN
+    np.testing.assert_array_equal(read.nodes.pressure_pa, made.nodes.pressure_pa)
     assert {t: r.tolist() for t, r in read.vessels.tags.items()} == \
         {t: r.tolist() for t, r in made.vessels.tags.items()}
     assert main(["solve", str(tmp_path / "tissue.yaml"), "--json"]) == 0

@@ -359,6 +359,14 @@ def test_bad_options_raise(option, value, match):
         solve_rheology(read_network_text(_yaml()), **{option: value})
 
 
+def test_singular_diameter_names_the_vessel():
+    """The in-vivo law divides by D - 1.1 um (REFERENCES 2.2): refused, naming the vessel."""
+    text = _yaml().replace("{id: e, from: m, to: t2, length: 90, radius: 3}",
+                           "{id: e, from: m, to: t2, length: 90, radius: 0.5}")
+    with pytest.raises(NetworkSpecError, match=r"'e'.*1\.1 um"):
+        solve_rheology(read_network_text(text))
+
+
 def test_series_beds_are_refused():
     """Beds draining into a node would carry red cells the march cannot follow."""
     text = _yaml().replace("outflow_pressure: 10}", "outflow_node: in}", 1)

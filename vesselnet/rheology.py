@@ -42,7 +42,8 @@ from .result import SteadyResult
 from .solve import DEFAULT_MAX_ITERATIONS as NEWTON_MAX_ITERATIONS
 from .solve import DEFAULT_TOLERANCE as NEWTON_TOLERANCE
 from .solve import solve
-from .viscosity import RELATIVE_LAWS, out_of_range, relative_viscosity, tube_hematocrit
+from .viscosity import (RELATIVE_LAWS, VIVO_SINGULAR_DIAMETER_M, out_of_range, relative_viscosity,
+                        tube_hematocrit)
 
 DEFAULT_RELAXATION = 0.5
 """Under-relaxation factor of the hematocrit update, H <- H + w (H_march - H)."""
@@ -269,6 +270,13 @@ def _check_options(network, relaxation, tolerance, max_iterations, anderson_memo
             or anderson_memory < 0:
         bad("anderson_memory", f"must be a whole number >= 0, got {anderson_memory!r}",
             "for example 5, or 0 for plain relaxation")
+    v = network.vessels
+    if network.blood.viscosity_law == "pries-vivo":
+        singular = (v.radius_in_m + v.radius_out_m) <= VIVO_SINGULAR_DIAMETER_M
+        if singular.any():
+            bad(f"vessels {_named(network, singular)}", "mean diameter at or below 1.1 um, where "
+                "the in-vivo viscosity law is singular", "check the radii (micrometres?), or "
+                "use the law 'pries-vitro'")
     series = np.flatnonzero(network.beds.outflow_node >= 0)
     if series.size:
         names = ", ".join(f"'{network.beds.ids[i]}'" for i in series[:5])
