@@ -17,6 +17,8 @@ COMMANDS = (
     "demo",
     "check",
     "solve",
+    "pulse",
+    "windkessel",
 )
 """Modules of this package that define a command, in help order."""
 
