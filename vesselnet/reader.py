@@ -24,7 +24,7 @@ from pathlib import Path
 
 import numpy as np
 
-from . import csvtables, yamlread
+from . import csvtables, waveformtable, yamlread
 from .errors import NetworkSpecError, Problem, UnitError
 from .fields import FieldReader, near_miss
 from .model import NAN, Blood, Network
@@ -88,7 +88,7 @@ def read_network(doc, file: str, base_dir: Path) -> Network:
     venous = fr.quantity(doc, "venous_pressure", "pressure", "venous_pressure",
                          default=5 * MMHG_PA)
     vessels, tags = read_vessels(fr, doc)
-    nodes, waveforms = read_nodes(fr, doc)
+    nodes, waveforms = read_nodes(fr, doc, base_dir)
     beds = read_beds(fr, doc)
     for key, into in (("vessels_table", vessels), ("nodes_table", nodes), ("beds_table", beds)):
         if key in doc:
@@ -280,7 +280,7 @@ def read_tags(fr: FieldReader, v, label: str) -> list[str]:
     return [str(t) for t in tags]
 
 
-def read_nodes(fr: FieldReader, doc) -> tuple[dict[str, list], dict[str, dict]]:
+def read_nodes(fr: FieldReader, doc, base_dir=Path(".")) -> tuple[dict[str, list], dict[str, dict]]:
     """The ``nodes:`` mapping as SI columns, and pulsatile inflow waveforms by node id."""
     cols = {k: [] for k in ("id", "pressure_pa", "inflow_m3_s", "position_m",
                             "target_pressure_pa", "line")}
@@ -301,7 +301,7 @@ def read_nodes(fr: FieldReader, doc) -> tuple[dict[str, list], dict[str, dict]]:
         cols["pressure_pa"].append(pressure)
         inflow = props.get("inflow")
         if isinstance(inflow, dict):
-            wave = read_waveform(fr, inflow, label)
+            wave = read_waveform(fr, inflow, label, base_dir)
             if wave:
                 waveforms[str(node_id)] = wave
             cols["inflow_m3_s"].append(wave.get("mean_m3_s", NAN) if wave else NAN)
@@ -337,9 +337,20 @@ def _index_map(seq, k):
     return m
 
 
-def read_waveform(fr: FieldReader, wave, label: str) -> dict:
+def read_waveform(fr: FieldReader, wave, label: str, base_dir=Path(".")) -> dict:
     """A pulsatile inflow (SPEC section 7) in SI, with its ``mean_m3_s``."""
     label = label + " inflow"
+    if "csv" in wave:   # {csv: file.csv}: a table of one cycle (vesselnet.waveformtable)
+        fr.allow(wave, ("csv",), label)
+        path = fr.text(wave, "csv", label, required=True)
+        if not path:
+            return {}
+        table = waveformtable.read_waveform_table(base_dir / path, "flow", fr.units, shown_as=path)
+        fr.problems.extend(table.problems)
+        if table.problems:
+            return {}
+        return {"period_s": table.period_s, "samples_m3_s": tuple(table.samples.tolist()),
+                "mean_m3_s": float(np.mean(table.samples)), "csv": path}
     if "samples" in wave:
         fr.allow(wave, ("period", "samples"), label)
         period = fr.quantity(wave, "period", "time", label, required=True, positive=True)

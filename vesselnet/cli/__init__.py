@@ -18,6 +18,8 @@ COMMANDS = (
     "check",
     "solve",
     "compare",
+    "pulse",
+    "windkessel",
 )
 """Modules of this package that define a command, in help order."""
 
