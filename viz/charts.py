@@ -5,7 +5,7 @@ Examples
 >>> import numpy as np
 >>> fig = waveform_figure(np.linspace(0, 1, 5), {"aorta": np.full(5, 13332.2387415)},
 ...                       kind="pressure")
->>> fig.layout.xaxis.title.text, fig.layout.yaxis.title.text, float(fig.data[0].y[0])
+>>> fig.layout.xaxis.title.text, fig.layout.yaxis.title.text, round(float(fig.data[0].y[0]), 9)
 ('time [s]', 'pressure [mmHg]', 100.0)
 """
 

@@ -20,7 +20,7 @@ Examples
 ...     beds=[{"id": "organ", "node": "t", "resistance_pa_s_m3": 1e9}])
 >>> fig = network_figure(solve(net), color="pressure")
 >>> [t.meta["role"] for t in fig.data]
-['vessels', 'vessel-points', 'beds']
+['vessels', 'vessel-points', 'bed-leaders', 'bed-labels', 'beds']
 >>> fig.data[1].marker.colorbar.title.text
 'mean pressure [mmHg]'
 """
@@ -44,11 +44,13 @@ from .quantities import quantity, vessel_values
 WIDTH_CLASSES = 5
 SVG_LIMIT = 3000
 """Up to this many vessels 2-D views draw as SVG; above it with WebGL."""
-ARROW_LIMIT = 3000
+ARROW_LIMIT = 600
 """Up to this many vessels every vessel gets an arrowhead; above it only the widest."""
-ARROW_COUNT = 400
+ARROW_COUNT = 300
 LABEL_COUNT = 24
 """Beds labelled on the figure (largest shares first); all have hover text."""
+LABEL_MIN_SHARE = 0.5
+"""Beds below this share of total inflow (percent) are not labelled on the figure."""
 FRONT_CAMERA = {"eye": {"x": 0.45, "y": 0.15, "z": 1.55}, "up": {"x": 0, "y": 1, "z": 0}}
 """3-D views start from the front (looking down the z axis, y up), as the plane view does."""
 CHANGE_TOLERANCE = 1e-9
@@ -118,9 +120,14 @@ def network_figure(result: SteadyResult, *, color: str | Sequence[str] = "pressu
         shared += _scenario_marks(result, baseline, matched, start, end, widths[width_class], dims,
                                   base_place or place_nodes(baseline.network, dims=dims))
     per_quantity: list[list] = []
+    shown_list = []
     for k, name in enumerate(names):
-        per_quantity.append(_quantity_traces(result, name, baseline, matched, start, end, width_class,
-                                             widths, dims, big, visible=k == 0))
+        group, shown = _quantity_traces(result, name, baseline, matched, start, end, width_class,
+                                        widths, dims, big, visible=k == 0)
+        per_quantity.append(group)
+        shown_list.append(shown)
+    if big:
+        shared.append(_points(result, shown_list, start, end, dims, big, True))
     arrows = _arrow_traces(result, start, end, radius_m, dims, big)
     beds, xrange = _bed_trace(result, baseline, xyz, dims, height)
     traces = shared[:1] + [t for group in per_quantity for t in group] + shared[1:] + arrows + beds
@@ -158,9 +165,10 @@ def _caption(result: SteadyResult, placement: Placement, big: bool) -> str:
              ("arrowheads" if flat else "cones") + ": flow direction"
              + (" (widest vessels)" if big or not flat else ""),
              ("squares" if flat else "diamonds") + ": beds with their share of total inflow"]
+    text = " · ".join(parts)
     if placement.computed:
-        parts.append("layout from the connections (no node positions in the file)")
-    return " · ".join(parts)
+        text += "<br>layout drawn from the connections (the file gives no node positions)"
+    return text
 
 
 def _axes(fig: go.Figure, placement: Placement) -> None:
@@ -228,6 +236,7 @@ def _values(result, name, baseline, matched):
 
 def _quantity_traces(result, name, baseline, matched, start, end, width_class, widths, dims, big,
                      *, visible):
+    """Line traces of one quantity, then its midpoint trace (small views) or colour-bar stub (large)."""
     q = quantity(name)
     values, pair = _values(result, name, baseline, matched)
     scale = colour_scale(values, diverging=baseline is not None, log=q.log_scale)
@@ -250,25 +259,58 @@ def _quantity_traces(result, name, baseline, matched, start, end, width_class, w
                                 hoverinfo="skip", showlegend=False, visible=visible,
                                 meta={"role": "vessels", "quantity": name, "range": value_range,
                                       "width_px": float(widths[w]), "count": int(len(rows))}))
-    traces.append(_points(result, q, values, pair, scale, start, end, dims, big, visible))
-    return traces
+    shown = (q, values, pair, scale)
+    if big:
+        traces.append(_colour_bar(shown, start, end, dims, visible))
+    else:
+        traces.append(_points(result, [shown], start, end, dims, big, visible))
+    return traces, shown
 
 
-def _points(result, q, values, pair, scale: ColourScale, start, end, dims, big, visible):
-    """Midpoint markers: hover text, colour bar and, in small 2-D views, arrowheads."""
+def _colour_bar_spec(q, pair, scale: ColourScale) -> dict:
+    cmin, cmax = scale.axis
+    colorbar = {"title": {"text": ("change in " if pair is not None else "") + q.title, "side": "right"},
+                "thickness": 14, "len": 0.75, "outlinewidth": 0, **scale.ticks()}
+    marker = {"colorscale": scale.plotly_scale(), "cmin": cmin, "cmax": cmax, "showscale": True,
+              "colorbar": colorbar}
+    if scale.diverging:
+        marker["cmid"] = 0.0
+    return marker
+
+
+def _colour_bar(shown, start, end, dims, visible):
+    """A two-point invisible trace that only carries a colour bar (large views)."""
+    q, _, pair, scale = shown
+    at = 0.5 * (start[:1] + end[:1]) if len(start) else np.zeros((1, dims))
+    marker = _colour_bar_spec(q, pair, scale)
+    marker.update(color=list(scale.axis), size=1, opacity=0.0)
+    return _markers(dims, True, [np.repeat(at[:, i], 2) for i in range(dims)], mode="markers",
+                    marker=marker, hoverinfo="skip", showlegend=False, visible=visible,
+                    meta={"role": "colour-bar", "quantity": q.name, "unit": q.unit,
+                          "change": pair is not None, "log": scale.log})
+
+
+def _points(result, shown_list, start, end, dims, big, visible):
+    """Midpoint markers with the hover text of every vessel.
+
+    Small views: one per quantity, coloured, carrying the colour bar and (2-D)
+    an arrowhead along the flow.  Large views: one shared, invisible trace
+    whose hover lists every quantity.
+    """
     net = result.network
     v = net.vessels
     mid = 0.5 * (start + end)
     flow = from_si(result.vessel_flow_m3_s, "flow", DISPLAY_UNITS["flow"])
-    columns = [values]
-    unit = q.unit
-    lines = ["vessel %{text}"]
-    if pair is None:
-        lines.append(f"{q.label}: %{{customdata[0]:.4g}} {unit}")
-    else:
-        columns += [pair[0], pair[1]]
-        lines.append(f"change in {q.label}: %{{customdata[0]:+.3g}} {unit}")
-        lines.append(f"baseline %{{customdata[1]:.4g}}, now %{{customdata[2]:.4g}} {unit}")
+    columns, lines = [], ["vessel <b>%{text}</b>" + ("" if big else "<br>%{hovertext}")]
+    for q, values, pair, _ in shown_list:
+        k = len(columns)
+        columns.append(values)
+        if pair is None:
+            lines.append(f"{q.label}: %{{customdata[{k}]:.4g}} {q.unit}")
+        else:
+            columns += [pair[0], pair[1]]
+            lines.append(f"change in {q.label}: %{{customdata[{k}]:+.3g}} {q.unit}")
+            lines.append(f"baseline %{{customdata[{k + 1}]:.4g}}, now %{{customdata[{k + 2}]:.4g}} {q.unit}")
     k = len(columns)
     columns += [flow, from_si(result.vessel_pressure_drop_pa, "pressure", DISPLAY_UNITS["pressure"]),
                 from_si(v.length_m, "length", "cm"), from_si(result.vessel_mean_radius_m, "length", "mm"),
@@ -278,30 +320,31 @@ def _points(result, q, values, pair, scale: ColourScale, start, end, dims, big, 
               f"length %{{customdata[{k + 2}]:.3g}} cm, mean radius %{{customdata[{k + 3}]:.3g}} mm",
               f"wall shear stress %{{customdata[{k + 4}]:.3g}} {DISPLAY_UNITS['wss']}"]
     nodes = net.nodes.ids
-    text = [f"<b>{plain(i)}</b><br>{plain(nodes[a])} → {plain(nodes[b])}"
-            for i, a, b in zip(v.ids, v.from_node.tolist(), v.to_node.tolist())]
-    cmin, cmax = scale.axis
-    colorbar = {"title": {"text": ("change in " if pair is not None else "") + q.title, "side": "right"},
-                "thickness": 14, "len": 0.75, "outlinewidth": 0, **scale.ticks()}
-    marker = {"color": scale.position(values), "colorscale": scale.plotly_scale(), "cmin": cmin,
-              "cmax": cmax, "showscale": True, "colorbar": colorbar}
-    if scale.diverging:
-        marker["cmid"] = 0.0
-    if dims == 2 and len(v) <= ARROW_LIMIT:
-        angle, moving = _screen_angle(result, start, end)
-        marker.update(symbol=np.where(moving, "triangle-up", "circle"), angle=angle,
-                      size=np.where(moving, 11, 6), line={"color": palette.ARROW_OUTLINE, "width": 1})
-    elif dims == 2:
-        marker.update(size=4, opacity=0.0)
-    else:
-        marker.update(size=np.clip(from_si(result.vessel_mean_radius_m, "length", "mm"), 2, 5), opacity=0.9)
+    text = [plain(i) for i in v.ids]
+    ends = None if big else [f"{plain(nodes[a])} → {plain(nodes[b])}"
+                             for a, b in zip(v.from_node.tolist(), v.to_node.tolist())]
     dtype = np.float32 if big else np.float64
+    meta = {"role": "vessel-points", "quantities": [q.name for q, *_ in shown_list]}
+    if big:
+        marker = {"size": 4, "opacity": 0.0, "color": palette.ARROW_OUTLINE}
+    else:
+        q, values, pair, scale = shown_list[0]
+        marker = _colour_bar_spec(q, pair, scale)
+        marker["color"] = scale.position(values)
+        meta.update(quantity=q.name, unit=q.unit, change=pair is not None, log=scale.log)
+        if dims == 2 and len(v) > ARROW_LIMIT:
+            marker.update(size=6, opacity=0.0)
+        elif dims == 2:
+            angle, moving = _screen_angle(result, start, end)
+            marker.update(symbol=np.where(moving, "triangle-up", "circle"), angle=angle,
+                          size=np.where(moving, 11, 6), line={"color": palette.ARROW_OUTLINE, "width": 1})
+        else:
+            marker.update(size=np.clip(from_si(result.vessel_mean_radius_m, "length", "mm"), 2, 5),
+                          opacity=0.9)
     return _markers(dims, big, [mid[:, i].astype(dtype) for i in range(dims)], mode="markers",
-                    marker=marker, text=text, customdata=np.column_stack(columns),
+                    marker=marker, text=text, hovertext=ends, customdata=np.column_stack(columns).astype(dtype),
                     hovertemplate="<br>".join(lines) + "<extra></extra>", showlegend=False,
-                    visible=visible, name=plain(q.label),
-                    meta={"role": "vessel-points", "quantity": q.name, "unit": q.unit,
-                          "change": pair is not None, "log": scale.log})
+                    visible=True if big else visible, name="vessels", meta=meta)
 
 
 def _screen_angle(result: SteadyResult, start, end):
@@ -330,7 +373,7 @@ def _arrow_traces(result, start, end, radius_m, dims, big) -> list:
     meta = {"role": "arrows", "count": int(len(rows))}
     if dims == 2:
         angle = _angles(q[rows], start[rows], end[rows])
-        return [go.Scattergl(x=mid[:, 0], y=mid[:, 1], mode="markers", hoverinfo="skip",
+        return [(go.Scattergl if big else go.Scatter)(x=mid[:, 0], y=mid[:, 1], mode="markers", hoverinfo="skip",
                              showlegend=False, meta=meta,
                              marker={"symbol": "triangle-up", "angle": angle, "size": 8,
                                      "color": palette.ARROW_OUTLINE})]
@@ -368,7 +411,8 @@ def _bed_trace(result: SteadyResult, baseline, xyz, dims, height) -> tuple[list,
         rows = np.array([index.get(b, -1) for b in beds.ids], dtype=np.int64)
         before[rows >= 0] = 100 * baseline.bed_share[rows[rows >= 0]]
     order = np.argsort(-np.nan_to_num(share, nan=-1.0), kind="stable")
-    labelled = np.sort(order[:LABEL_COUNT if dims == 2 else LABEL_COUNT // 3])
+    top = order[:LABEL_COUNT if dims == 2 else LABEL_COUNT // 3]
+    labelled = np.sort(top[np.nan_to_num(share[top]) >= LABEL_MIN_SHARE])
     labels = []
     for i in labelled:
         text = f"{plain(beds.ids[i])} {share[i]:.1f} %"
@@ -377,32 +421,37 @@ def _bed_trace(result: SteadyResult, baseline, xyz, dims, height) -> tuple[list,
         labels.append(text)
     pos = xyz[beds.node]
     node_ids = net.nodes.ids
-    hover = ["<b>bed %{customdata[5]}</b>", "node %{customdata[6]}",
-             f"flow %{{customdata[0]:.4g}} {DISPLAY_UNITS['flow']}",
+    hover = ["<b>bed %{hovertext}</b>", "node %{text}", f"flow %{{customdata[0]:.4g}} {DISPLAY_UNITS['flow']}",
              "share of total inflow %{customdata[1]:.2f} %"]
     if baseline is not None:
         hover.append("baseline share %{customdata[4]:.2f} %")
     hover += [f"pressure %{{customdata[2]:.4g}} {DISPLAY_UNITS['pressure']}",
               f"perfusion pressure %{{customdata[3]:.4g}} {DISPLAY_UNITS['pressure']}"]
-    customdata = np.empty((len(beds), 7), dtype=object)
-    customdata[:, 0], customdata[:, 1], customdata[:, 2] = flow, share, pressure
-    customdata[:, 3], customdata[:, 4] = perfusion, before
-    customdata[:, 5] = [plain(b) for b in beds.ids]
-    customdata[:, 6] = [plain(node_ids[n]) for n in beds.node.tolist()]
-    size = 7 + 16 * np.sqrt(np.clip(np.nan_to_num(share), 0, 100) / 100)
+    dtype = np.float32 if len(beds) > SVG_LIMIT else np.float64
+    customdata = np.column_stack([flow, share, pressure, perfusion, before]).astype(dtype)
+    names = [plain(b) for b in beds.ids]
+    at_nodes = [plain(node_ids[n]) for n in beds.node.tolist()]
+    smallest = 7 if len(beds) <= SVG_LIMIT else 3
+    size = (smallest + 16 * np.sqrt(np.clip(np.nan_to_num(share), 0, 100) / 100)).astype(dtype)
     common = dict(customdata=customdata, name="beds", hovertemplate="<br>".join(hover) + "<extra></extra>",
-                  showlegend=False, meta={"role": "beds"})
+                  showlegend=False, meta={"role": "beds"}, hovertext=names, text=at_nodes)
     font = {"size": 11, "color": palette.TEXT}
     if dims == 3:
         text = np.full(len(beds), "", dtype=object)
         text[labelled] = labels
-        return [go.Scatter3d(x=pos[:, 0], y=pos[:, 1], z=pos[:, 2], mode="markers+text", text=text,
+        common.update(text=text, hovertemplate=common["hovertemplate"].replace("node %{text}<br>", ""))
+        return [go.Scatter3d(x=pos[:, 0], y=pos[:, 1], z=pos[:, 2], mode="markers+text",
                              textposition="middle right", textfont=font, **common,
                              marker={"symbol": "diamond", "size": size * 0.6, "color": palette.BED,
                                      "line": {"color": "#ffffff", "width": 1}})], {}
-    markers = go.Scatter(x=pos[:, 0], y=pos[:, 1], mode="markers", **common, cliponaxis=False,
-                         marker={"symbol": "square", "size": size, "color": palette.BED,
-                                 "line": {"color": "#ffffff", "width": 1.5}})
+    marker = {"symbol": "square", "size": size, "color": palette.BED,
+              "line": {"color": "#ffffff", "width": 1.5}}
+    if len(beds) > SVG_LIMIT:
+        markers = go.Scattergl(x=pos[:, 0].astype(dtype), y=pos[:, 1].astype(dtype), mode="markers",
+                               **common, marker=marker)
+    else:
+        markers = go.Scatter(x=pos[:, 0], y=pos[:, 1], mode="markers", **common, cliponaxis=False,
+                             marker=marker)
     callouts, xrange = _callouts(xyz, pos[labelled], labels, height)
     return callouts + [markers], xrange
 

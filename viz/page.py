@@ -174,8 +174,12 @@ def write_page(path, title: str, sections: Sequence[Section], *, intro: Sequence
     return [path] + written
 
 
-def write_image(fig, path, *, width: int = 1400, height: int | None = None, scale: float = 2.0) -> Path:
+def write_image(fig, path, *, width: int = 1200, height: int | None = None, scale: float = 2.0) -> Path:
     """Static image of a figure (PNG, SVG or PDF by the suffix) through plotly's kaleido export.
+
+    kaleido drives the system's Chromium; the switching buttons are left
+    out.  ``width``/``height`` are in CSS pixels, ``scale`` multiplies them
+    for raster formats.
 
     Raises
     ------
@@ -186,7 +190,11 @@ def write_image(fig, path, *, width: int = 1400, height: int | None = None, scal
         import kaleido  # noqa: F401
     except ImportError as exc:
         raise ImportError("static images need kaleido: pip install 'vesselnet[images]'") from exc
+    import plotly.graph_objects as go
+
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
-    fig.write_image(str(path), width=width, height=height or fig.layout.height or 700, scale=scale)
+    still = go.Figure(fig)
+    still.update_layout(updatemenus=[])  # buttons do nothing on paper
+    still.write_image(str(path), width=width, height=height or fig.layout.height or 700, scale=scale)
     return path

@@ -26,11 +26,13 @@ from vesselnet.units import DISPLAY_UNITS, from_si
 
 from .charts import bed_share_figure, share_comparison_figure
 from .layout import place_nodes
-from .network import network_figure
+from .network import SVG_LIMIT, network_figure
 from .page import Section
 from .quantities import available
 
 DEFAULT_COLORS = ("flow", "pressure", "wss")
+TABLE_ROWS = 200
+"""Beds listed in a page's table, largest share first."""
 CAUTION = ("vesselnet is a research and planning aid, not a medical device: results are to be "
            "reviewed by licensed clinicians, deferring to local regulations and practice.")
 HOW_TO_READ = ("Hover a vessel or bed for its values; the buttons switch the colouring; drag to "
@@ -48,7 +50,7 @@ def figure_height(placement) -> int:
 
 
 def bed_rows(result: SteadyResult) -> tuple[list[str], list[list]]:
-    """Headers and rows of the bed table, largest share first."""
+    """Headers and rows of the bed table, largest share first (at most :data:`TABLE_ROWS`)."""
     beds = result.network.beds
     order = np.argsort(-np.nan_to_num(result.bed_share, nan=-1.0), kind="stable")
     flow = from_si(result.bed_flow_m3_s, "flow", DISPLAY_UNITS["flow"])
@@ -58,13 +60,23 @@ def bed_rows(result: SteadyResult) -> tuple[list[str], list[list]]:
                f"pressure [{DISPLAY_UNITS['pressure']}]", f"perfusion pressure [{DISPLAY_UNITS['pressure']}]",
                "node"]
     rows = [[beds.ids[i], float(flow[i]), float(100 * result.bed_share[i]), float(pressure[i]),
-             float(perfusion[i]), result.network.nodes.ids[beds.node[i]]] for i in order]
+             float(perfusion[i]), result.network.nodes.ids[beds.node[i]]] for i in order[:TABLE_ROWS]]
+    if len(order) > TABLE_ROWS:
+        rows.append([f"... {len(order) - TABLE_ROWS} more beds (all of them: vesselnet solve --json)",
+                     "", "", "", "", ""])
     return headers, rows
 
 
-def result_section(result: SteadyResult, *, colors: Sequence[str] = DEFAULT_COLORS, dims: int = 2,
+def result_section(result: SteadyResult, *, colors: Sequence[str] | None = None, dims: int = 2,
                    heading: str | None = None, text: Sequence[str] = ()) -> Section:
-    """A network view (buttons for ``colors``), the bed-share chart and the bed table."""
+    """A network view (buttons for ``colors``), the bed-share chart and the bed table.
+
+    ``colors`` defaults to :data:`DEFAULT_COLORS`, or only its first for
+    networks above :data:`viz.network.SVG_LIMIT` vessels (each quantity adds
+    a full set of line traces to the page).
+    """
+    if colors is None:
+        colors = DEFAULT_COLORS if len(result.network.vessels) <= SVG_LIMIT else DEFAULT_COLORS[:1]
     names = [c for c in colors if c in available(result)] or ["pressure"]
     placement = place_nodes(result.network, dims=dims)
     network = network_figure(result, color=names, dims=dims, placement=placement,

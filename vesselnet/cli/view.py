@@ -18,7 +18,8 @@ def add_parser(sub) -> None:
     p.add_argument("--color", default=None, metavar="QUANTITY[,QUANTITY...]",
                    help="what to colour vessels by: pressure, flow, wss, velocity, pressure_drop, "
                         "radius, reynolds, hematocrit, tube_hematocrit (default "
-                        f"{DEFAULT_COLORS}; with --scenario the change in flow)")
+                        f"{DEFAULT_COLORS}, only flow above 3000 vessels; with --scenario the "
+                        "change in flow)")
     p.add_argument("--3d", dest="dims", action="store_const", const=3, default=2,
                    help="draw in 3-D (default: the file's x-y plane)")
     p.add_argument("-o", "--output", default="view.html", metavar="PATH",
@@ -48,7 +49,7 @@ def run(args) -> int:
     network = load_network(args.file)
     result = solve(network)
     print_warnings(result.warnings)
-    sections = [result_section(result, colors=colors or DEFAULT_COLORS.split(","), dims=args.dims)]
+    sections = [result_section(result, colors=colors or None, dims=args.dims)]
     figure = sections[0].figures[0]
     if args.scenario:
         scenario_file, name = args.scenario
