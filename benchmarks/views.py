@@ -4,8 +4,8 @@ Run: ``python benchmarks/views.py [N ...]`` (default 1000 100000).  For each
 size a binary Murray tree without positions (radial layout) is solved, its
 view page written (plotly.js beside, so the size is the page's own data;
 plus the embedded size), and the page opened in headless Chromium
-(``/usr/bin/chromium``, network blocked) to time: navigation to all plots
-drawn, a hover label after a mouse move, and a colouring switch.
+(``/usr/bin/chromium``, network blocked) to time (median of three loads): navigation to
+all plots drawn, a hover label after a mouse move, and a colouring switch.
 The baseline, measured in the same run, is the obvious design this layer
 avoids: one plotly trace per vessel (only at 10^3; at 10^5 it does not
 finish in reasonable time).
@@ -98,6 +98,12 @@ def browse(path: Path, browser, *, hover: bool = True) -> dict:
     return out
 
 
+def median_of(run, repeats: int = 3) -> dict:
+    """Median of each timing over ``repeats`` fresh page loads (the machine is shared)."""
+    runs = [run() for _ in range(repeats)]
+    return {k: float(np.median([r[k] for r in runs])) for k in runs[0]}
+
+
 def main(sizes: list[int]) -> None:
     from playwright.sync_api import sync_playwright
 
@@ -116,7 +122,7 @@ def main(sizes: list[int]) -> None:
             embedded = folder / f"tree{n}-embedded.html"
             write_page(embedded, result.network.name, [section])
             traces = len(section.figures[0].data)
-            stats = browse(page, browser)
+            stats = median_of(lambda: browse(page, browser))
             print(f"{n:>7} vessels  ours: {traces} traces, figures {t_fig:.2f} s, write {t_write:.2f} s, "
                   f"page {page.stat().st_size / 1e6:.2f} MB (+4.8 MB plotly.js beside; embedded "
                   f"{embedded.stat().st_size / 1e6:.2f} MB), drawn {stats['drawn_s']:.2f} s "
@@ -128,7 +134,7 @@ def main(sizes: list[int]) -> None:
                 write_page(base, "baseline", [Section("baseline", figures=(trace_per_vessel(result),))],
                            plotlyjs="beside")
                 t_base = time.perf_counter() - t0
-                stats = browse(base, browser, hover=False)
+                stats = median_of(lambda: browse(base, browser, hover=False))
                 print(f"{n:>7} vessels  baseline (one trace per vessel, colour only): build+write "
                       f"{t_base:.2f} s, page {base.stat().st_size / 1e6:.2f} MB, drawn "
                       f"{stats['drawn_s']:.2f} s")
