@@ -17,6 +17,9 @@ import numpy as np
 import pytest
 
 from vesselnet.cli import main
+from vesselnet.cli.demo import DEMO_SCENARIOS
+from vesselnet.demos import DEMOS, demo_path
+from vesselnet.scenarios import load_scenarios
 from vesselnet.model import Network
 from vesselnet.solve import solve
 
@@ -97,7 +100,9 @@ def test_demo_report_draws_offline_and_hovers(browser, demo_report):
     visit = Visit(browser, demo_report)
     page = visit.page
     plots = page.query_selector_all(".js-plotly-plot")
-    assert len(plots) == page.evaluate("window.vesselnetFigures") == 6
+    scenarios = load_scenarios(demo_path(DEMO_SCENARIOS)).scenarios
+    # two figures per demo network (view, bed shares) and per scenario (change view, shares)
+    assert len(plots) == page.evaluate("window.vesselnetFigures") == 2 * (len(DEMOS) + len(scenarios))
     for plot in plots:
         assert plot.get_attribute("data-drawn") == "1"
         assert plot.query_selector(".main-svg") is not None

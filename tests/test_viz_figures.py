@@ -101,7 +101,8 @@ def _independent(result, name):
     """Per-vessel values computed here from the result's primary arrays and outside formulas."""
     v = result.network.vessels
     p = result.pressure_pa
-    r = 0.5 * (v.radius_in_m + v.radius_out_m)
+    # shear is reported at the lumen radius: distended where wall mechanics ran, else the mean end radius
+    r = result.vessel_extra.get("lumen_radius_m", 0.5 * (v.radius_in_m + v.radius_out_m))
     q = result.vessel_flow_m3_s
     return {"pressure": 0.5 * (p[v.from_node] + p[v.to_node]) / MMHG_PA,
             "flow": np.abs(q) * ML_MIN_PER_M3_S,
@@ -296,3 +297,19 @@ def test_partial_colour_classes():
     assert log.log and log.axis == pytest.approx((-2.0, 1.0))
     neutral = "rgb({}, {}, {})".format(*hex_to_rgb(palette.DIVERGING[2][1]))
     assert bins.colour_scale(np.array([-1.0, 1.0]), diverging=True).colours[5] == neutral
+
+
+def test_split_vessels_follow_their_origin():
+    """With the comparison's vessel origins, the pieces of a split vessel are matched (changed,
+    not added) and only the graft counts as added; nothing is removed."""
+    from vesselnet.compare import compare_file
+
+    comparison = compare_file(demo_path("collateral_steal"))
+    outcome = next(o for o in comparison.scenarios if "bypass" in o.name)
+    origin = outcome.vessel_origin
+    assert (origin < 0).sum() >= 1 and len(origin) > len(comparison.baseline.network.vessels)
+    fig = network_figure(outcome.result, color="flow", baseline=comparison.baseline, vessel_origin=origin)
+    assert traces(fig, "added")[0].meta["count"] == int((origin < 0).sum())
+    assert traces(fig, "removed") == []
+    pieces = np.bincount(origin[origin >= 0], minlength=len(comparison.baseline.network.vessels))
+    assert traces(fig, "changed")[0].meta["count"] >= int((pieces > 1).sum()) * 2

@@ -53,11 +53,10 @@ def test_share_comparison_matches_beds_by_id(body):
 
     keep = np.array([b != "liver" for b in net.beds.ids])
     beds = net.beds
+    columns = {f.name: getattr(beds, f.name)[keep] for f in dataclasses.fields(beds)
+               if isinstance(getattr(beds, f.name), np.ndarray)}
     fewer = dataclasses.replace(net, beds=dataclasses.replace(
-        beds, ids=tuple(b for b, k in zip(beds.ids, keep) if k),
-        **{f: getattr(beds, f)[keep] for f in ("node", "resistance_pa_s_m3", "outflow_pressure_pa",
-                                                "outflow_node", "share", "windkessel_proximal_pa_s_m3",
-                                                "windkessel_compliance_m3_pa", "line")}))
+        beds, ids=tuple(b for b, k in zip(beds.ids, keep) if k), **columns))
     scenario = solve(fewer)
     fig = share_comparison_figure(body, scenario, name="no <liver>")
     before, after = fig.data
@@ -132,3 +131,14 @@ def test_view_command_bad_options(tmp_path, capsys, argv, message):
     code = main(["view", str(demo_path("leg")), "-o", str(tmp_path / "v.html"), *argv])
     assert code == 2
     assert message in capsys.readouterr().err
+
+
+def test_view_command_with_scenario(tmp_path, capsys):
+    """--scenario FILE NAME puts the change view and the share comparison first."""
+    out = tmp_path / "steal.html"
+    name = "left feeder occluded"
+    assert main(["view", str(demo_path("collateral")), "--scenario", str(demo_path("collateral_steal")),
+                 name, "-o", str(out)]) == 0
+    html = out.read_text()
+    assert html.index(f"{name}: what changed") < html.index("Where the blood goes")
+    assert "change in flow [mL\\u002fmin]" in html  # plotly escapes "/" inside the figure JSON

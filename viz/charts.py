@@ -137,7 +137,9 @@ def share_comparison_figure(baseline: SteadyResult, scenario: SteadyResult, *,
     heading = plain(title if title is not None else "Bed shares against the baseline")
     _bar_layout(fig, f"<b>{heading}</b>", 2 * len(labels), xtitle="share of total inflow [%]")
     fig.update_layout(barmode="group", legend={"orientation": "h", "y": 1.0, "yanchor": "bottom",
-                                               "x": 1.0, "xanchor": "right"})
+                                               "x": 0.0, "xanchor": "left", "font": {"size": 12}},
+                      margin={"t": 96}, title={"y": 0.995, "yref": "container", "yanchor": "top",
+                                               "pad": {"t": 10}})
     return fig
 
 

@@ -53,6 +53,8 @@ LABEL_MIN_SHARE = 0.5
 """Beds below this share of total inflow (percent) are not labelled on the figure."""
 FRONT_CAMERA = {"eye": {"x": 0.45, "y": 0.15, "z": 1.55}, "up": {"x": 0, "y": 1, "z": 0}}
 """3-D views start from the front (looking down the z axis, y up), as the plane view does."""
+TITLE_BREAK = 48
+"""Headings longer than this many characters leave the quantity to the colour bar."""
 CHANGE_TOLERANCE = 1e-9
 """Relative difference below which a vessel property counts as unchanged."""
 
@@ -60,7 +62,7 @@ CHANGE_TOLERANCE = 1e-9
 def network_figure(result: SteadyResult, *, color: str | Sequence[str] = "pressure",
                    baseline: SteadyResult | None = None, dims: int = 2,
                    placement: Placement | None = None, title: str | None = None,
-                   height: int = 760) -> go.Figure:
+                   height: int = 760, vessel_origin=None) -> go.Figure:
     """An interactive figure of the network coloured by result quantities.
 
     Parameters
@@ -81,6 +83,11 @@ def network_figure(result: SteadyResult, *, color: str | Sequence[str] = "pressu
         Title text (escaped); default the network's name.
     height : int
         Figure height in pixels.
+    vessel_origin : array_like of int, optional
+        With a baseline: the baseline row each vessel stems from (-1 for new
+        ones), for example the pieces of a split vessel
+        (:attr:`vesselnet.compare.ScenarioOutcome.vessel_origin`); default
+        matching by id.
 
     Returns
     -------
@@ -112,8 +119,11 @@ def network_figure(result: SteadyResult, *, color: str | Sequence[str] = "pressu
 
     matched = None
     if baseline is not None:
-        index = baseline.network.vessels.index
-        matched = np.array([index.get(i, -1) for i in v.ids], dtype=np.int64)
+        if vessel_origin is not None:
+            matched = np.asarray(vessel_origin, dtype=np.int64).reshape(len(v))
+        else:
+            index = baseline.network.vessels.index
+            matched = np.array([index.get(i, -1) for i in v.ids], dtype=np.int64)
 
     shared: list = []
     if baseline is not None:
@@ -153,6 +163,8 @@ def network_figure(result: SteadyResult, *, color: str | Sequence[str] = "pressu
 
 def _title(heading: str, name: str, change: bool) -> str:
     q = quantity(name)
+    if len(heading) > TITLE_BREAK:  # the colour bar names the quantity
+        return f"<b>{heading}</b>"
     return f"<b>{heading}</b>: {'change in ' if change else ''}{q.label}"
 
 

@@ -85,10 +85,16 @@ QUANTITIES: dict[str, Quantity] = {q.name: q for q in (
     Quantity("reynolds", "Reynolds number", "1", lambda r: np.abs(r.vessel_reynolds), True),
     Quantity("hematocrit", "discharge hematocrit", "%", _extra("hematocrit")),
     Quantity("tube_hematocrit", "tube hematocrit", "%", _extra("tube_hematocrit")),
+    Quantity("wall_stress", "circumferential wall stress", "kPa",
+             lambda r: from_si(np.asarray(r.vessel_extra["wall_stress_pa"], dtype=float), "pressure", "kPa")),
+    Quantity("wall_strain", "circumferential wall strain", "%", _extra("wall_strain")),
+    Quantity("volume", "blood volume", "mL",
+             lambda r: from_si(np.asarray(r.vessel_extra["volume_m3"], dtype=float), "volume", "mL"), True),
 )}
 """Every quantity a view can colour by, keyed by name."""
 
-NEEDS_EXTRA = {"hematocrit": "hematocrit", "tube_hematocrit": "tube_hematocrit"}
+NEEDS_EXTRA = {"hematocrit": "hematocrit", "tube_hematocrit": "tube_hematocrit",
+               "wall_stress": "wall_stress_pa", "wall_strain": "wall_strain", "volume": "volume_m3"}
 """Quantities that exist only when the result carries that ``vessel_extra`` entry."""
 
 
@@ -124,7 +130,7 @@ def vessel_values(result: SteadyResult, name: str) -> np.ndarray:
     q = quantity(name)
     if name not in available(result):
         raise NetworkSpecError([Problem(
-            "", 0, 0, f"--color {name}", f"this result has no {q.label} (it needs a viscosity law "
-            "with red-cell separation in the network file)",
+            "", 0, 0, f"--color {name}", f"this result has no {q.label} (hematocrit needs a "
+            "viscosity law with red-cell separation, wall quantities distensible walls)",
             f"choose one of {', '.join(available(result))}")])
     return np.asarray(q.values(result), dtype=float)

@@ -89,15 +89,20 @@ def result_section(result: SteadyResult, *, colors: Sequence[str] | None = None,
 
 
 def comparison_section(baseline: SteadyResult, scenario: SteadyResult, *, name: str,
-                       color: str = "flow", dims: int = 2) -> Section:
-    """A scenario against its baseline: change view and bed shares side by side."""
+                       color: str = "flow", dims: int = 2, vessel_origin=None,
+                       text: Sequence[str] = ()) -> Section:
+    """A scenario against its baseline: change view and bed shares side by side.
+
+    ``vessel_origin`` as in :func:`viz.network.network_figure` (default: match vessels by id).
+    """
     base_place = place_nodes(baseline.network, dims=dims)
     placement = place_nodes(scenario.network, dims=dims, like=base_place)
     network = network_figure(scenario, color=color, baseline=baseline, dims=dims, placement=placement,
-                             title=f"{name} against the baseline", height=figure_height(placement))
+                             title=name, height=figure_height(placement),
+                             vessel_origin=vessel_origin)
     shares = share_comparison_figure(baseline, scenario, name=name)
     summary = scenario.summary().removeprefix(f"{scenario.network.name}: ")
-    return Section(f"{name}: what changed", text=(summary,), figures=(network, shares),
+    return Section(f"{name}: what changed", text=(*text, summary), figures=(network, shares),
                    table=bed_rows(scenario), columns=2,
                    note="Colour: change against the baseline (orange more, blue less, grey unchanged); "
                         "magenta halo: vessels the scenario changed; dashed: added; dotted: removed; "

@@ -1,8 +1,14 @@
-"""``vesselnet demo``: solve the bundled demo networks and write an HTML report."""
+"""``vesselnet demo``: solve the bundled demo networks and write an HTML report.
+
+The report shows each demo network, then each scenario of one bundled
+scenario file against its baseline (what the scenario changed).
+"""
 
 from __future__ import annotations
 
 DEFAULT_REPORT = "vesselnet-demo/report.html"
+DEMO_SCENARIOS = "collateral_steal"
+"""The bundled scenario file whose scenarios the report shows against their baseline."""
 
 
 def add_parser(sub) -> None:
@@ -37,12 +43,23 @@ def run(args) -> int:
         print_warnings(result.warnings)
 
     from viz.page import write_page
-    from viz.report import CAUTION, result_section
+    from viz.report import CAUTION, comparison_section, result_section
+
+    from ..compare import compare_file
 
     sections = [result_section(result, text=(f"Bundled file: {path.name}",)) for path, result in results]
+    scenario_path = demo_path(DEMO_SCENARIOS)
+    comparison = compare_file(scenario_path)
+    for outcome in comparison.scenarios:
+        print_warnings(f"scenario '{outcome.name}': {w}" for w in outcome.result.warnings)
+        note = f"Scenario from the bundled file {scenario_path.name}."
+        sections.append(comparison_section(
+            outcome.baseline, outcome.result, name=outcome.name, vessel_origin=outcome.vessel_origin,
+            text=tuple(t for t in (outcome.description, note) if t)))
     paths = write_page(args.output, "vesselnet demo report", sections,
                        intro=["Steady pressures and flows of the bundled demo networks (invented, "
-                              "physiologically plausible; no real patient)."],
+                              "physiologically plausible; no real patient), then the scenarios of "
+                              f"{scenario_path.name} against their baseline."],
                        footer=[CAUTION], plotlyjs=args.plotlyjs)
     emit(f"wrote the report {paths[0]}" + "".join(f" (and {p})" for p in paths[1:])
          + "; open it in a web browser")

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import dataclasses
+
 DEFAULT_COLORS = "flow,pressure,wss"
 
 
@@ -17,7 +19,8 @@ def add_parser(sub) -> None:
                    help="also show scenario NAME of scenario file FILE against the baseline")
     p.add_argument("--color", default=None, metavar="QUANTITY[,QUANTITY...]",
                    help="what to colour vessels by: pressure, flow, wss, velocity, pressure_drop, "
-                        "radius, reynolds, hematocrit, tube_hematocrit (default "
+                        "radius, reynolds, hematocrit, tube_hematocrit, wall_stress, wall_strain, "
+                        "volume (default "
                         f"{DEFAULT_COLORS}, only flow above 3000 vessels; with --scenario the "
                         "change in flow)")
     p.add_argument("--3d", dest="dims", action="store_const", const=3, default=2,
@@ -52,11 +55,12 @@ def run(args) -> int:
     sections = [result_section(result, colors=colors or None, dims=args.dims)]
     figure = sections[0].figures[0]
     if args.scenario:
-        scenario_file, name = args.scenario
-        changed = solve(scenario_network(network, scenario_file, name))
-        print_warnings(changed.warnings)
-        sections.insert(0, comparison_section(result, changed, name=name, color=(colors or ["flow"])[0],
-                                              dims=args.dims))
+        outcome = scenario_outcome(network, *args.scenario)
+        print_warnings(outcome.result.warnings)
+        sections.insert(0, comparison_section(result, outcome.result, name=outcome.name,
+                                              color=(colors or ["flow"])[0], dims=args.dims,
+                                              vessel_origin=outcome.vessel_origin,
+                                              text=[outcome.description] if outcome.description else []))
         figure = sections[0].figures[0]
     paths = write_page(args.output, f"vesselnet view: {network.name}", sections,
                        intro=[f"Network file: {os.path.basename(args.file)}"], footer=[CAUTION],
@@ -75,25 +79,30 @@ def run(args) -> int:
     return 0
 
 
-def scenario_network(network, scenario_file: str, name: str):
-    """The network changed by scenario ``name`` of ``scenario_file``.
+def scenario_outcome(network, scenario_file: str, name: str):
+    """Scenario ``name`` of ``scenario_file`` applied to ``network`` and solved against it.
 
-    Uses the scenario reader (``vesselnet.scenarios.load_scenarios``) and the
-    change engine (``vesselnet.changes.apply_changes``) when they are present.
+    The scenario's changes are made to the viewed network (the file's own
+    ``network:`` entry is not used), then solved with
+    :func:`vesselnet.compare.compare_networks`, which also settles the targets
+    of autoregulating beds from the baseline.
+
+    Raises
+    ------
+    NetworkSpecError
+        No scenario of that name, or changes that cannot be made.
     """
+    from ..changefile import apply_changes
+    from ..compare import compare_networks
     from ..errors import NetworkSpecError, Problem
+    from ..scenarios import load_scenarios
 
-    try:
-        from ..changes import apply_changes
-        from ..scenarios import load_scenarios
-    except ImportError:
-        raise NetworkSpecError([Problem(scenario_file, 0, 0, "--scenario",
-                                        "scenario files are not readable by this version yet",
-                                        "view the network alone for now")]) from None
-    scenarios = load_scenarios(scenario_file)
+    scenarios = load_scenarios(scenario_file).scenarios
     for scenario in scenarios:
         if scenario.name == name:
-            return apply_changes(network, scenario.changes)
+            changed = apply_changes(network, scenario.changes)
+            (outcome,) = compare_networks(network, [(name, changed)]).scenarios
+            return dataclasses.replace(outcome, description=scenario.description)
     names = ", ".join(repr(s.name) for s in scenarios)
     raise NetworkSpecError([Problem(scenario_file, 0, 0, "--scenario", f"no scenario named {name!r}",
                                     f"choose one of {names}")])
