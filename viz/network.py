@@ -171,7 +171,8 @@ def _title(heading: str, name: str, change: bool) -> str:
 def _caption(result: SteadyResult, placement: Placement, big: bool) -> str:
     r_mm = from_si(result.vessel_mean_radius_m, "length", "mm")
     finite = r_mm[np.isfinite(r_mm)]
-    span = f" ({finite.min():.2g}-{finite.max():.2g} mm)" if len(finite) else ""
+    lo, hi = (f"{finite.min():.2g}", f"{finite.max():.2g}") if len(finite) else ("", "")
+    span = "" if not lo else f" ({lo} mm)" if lo == hi else f" ({lo}-{hi} mm)"
     flat = placement.dims == 2
     parts = [f"line width: vessel radius{span}",
              ("arrowheads" if flat else "cones") + ": flow direction"
