@@ -20,6 +20,7 @@ COMMANDS = (
     "compare",
     "pulse",
     "windkessel",
+    "view",
 )
 """Modules of this package that define a command, in help order."""
 
