@@ -18,6 +18,7 @@ COMMANDS = (
     "check",
     "solve",
     "compare",
+    "grafts",
 )
 """Modules of this package that define a command, in help order."""
 
