@@ -96,6 +96,7 @@ class Robustness:
 
     @property
     def ranked(self) -> int:
+        """Samples that were ranked."""
         return self.samples - self.failed
 
     @property
@@ -105,6 +106,7 @@ class Robustness:
 
     @property
     def top_first_fraction(self) -> float:
+        """Share of the ranked samples in which the nominal best was first."""
         return self.top_first / self.ranked if self.ranked else float("nan")
 
     @property

@@ -130,6 +130,7 @@ class CandidateOutcome:
 
     @property
     def id(self) -> str:
+        """The candidate's id."""
         return self.candidate.id
 
     @property
@@ -172,6 +173,7 @@ class GraftRanking:
 
     @property
     def lost_flow_m3_s(self) -> float:
+        """Target flow the condition costs: healthy minus diseased (m^3/s)."""
         return self.healthy_state.target_flow_m3_s - self.diseased_state.target_flow_m3_s
 
     def summary(self) -> str:

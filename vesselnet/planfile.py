@@ -88,6 +88,7 @@ class Candidate:
 
     @property
     def length_m(self) -> float:
+        """Graft length (m), given or routed."""
         return float(self.vessel["length_m"])
 
     @property
@@ -97,6 +98,7 @@ class Candidate:
 
     @property
     def min_diameter_m(self) -> float:
+        """Smallest lumen diameter along the graft (m)."""
         return 2.0 * min(float(self.vessel["radius_in_m"]), float(self.vessel["radius_out_m"]))
 
 
