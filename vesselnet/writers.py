@@ -230,6 +230,7 @@ def atomic_write(path, text: str) -> None:
     try:
         with os.fdopen(handle, "w", encoding="utf-8", newline="") as out:
             out.write(text)
+        os.chmod(tmp, 0o666 & ~_umask())  # mkstemp makes 0600; give the usual permissions
         os.replace(tmp, path)
     except BaseException:
         try:
@@ -237,6 +238,12 @@ def atomic_write(path, text: str) -> None:
         except OSError:
             pass
         raise
+
+
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
 
 
 def spreadsheet_safe(cell: str) -> str:

@@ -21,6 +21,7 @@ COMMANDS = (
     "pulse",
     "windkessel",
     "view",
+    "grafts",
     "generate",
 )
 """Modules of this package that define a command, in help order."""

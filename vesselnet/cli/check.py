@@ -1,4 +1,4 @@
-"""``vesselnet check FILE``: validate a network or scenario file."""
+"""``vesselnet check FILE``: validate a network, scenario or plan file."""
 
 from __future__ import annotations
 
@@ -21,6 +21,11 @@ def run(args) -> int:
         from ..scenarios import check_scenario_file
 
         emit(check_scenario_file(args.file))
+        return 0
+    if file_kind_of(args.file) == "plan":
+        from ..planfile import check_plan_file
+
+        emit(check_plan_file(args.file))
         return 0
     net = load_network(args.file)
     fixed = int((~np.isnan(net.nodes.pressure_pa)).sum())
