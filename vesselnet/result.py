@@ -191,7 +191,7 @@ class SteadyResult:
         """
         inflow = self.inflow_m3_s * 6e7
         beds = self.network.beds
-        text = f"{self.network.name}: inflow {inflow:.1f} mL/min, {len(beds)} bed"
+        text = f"{self.network.name}: inflow {inflow:.5g} mL/min, {len(beds)} bed"
         text += "s" if len(beds) != 1 else ""
         if len(beds):
             k = int(np.nanargmax(self.bed_share))
