@@ -17,6 +17,7 @@ COMMANDS = (
     "demo",
     "check",
     "solve",
+    "compare",
     "calibrate",
 )
 """Modules of this package that define a command, in help order."""
