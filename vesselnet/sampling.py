@@ -43,8 +43,9 @@ from .errors import SolveError
 from .model import Network
 from .result import SteadyResult
 from .solve import (DEFAULT_MAX_ITERATIONS, DEFAULT_TOLERANCE, element_groups, finish, flow_scale,
-                    initial_pressure, line_search, non_convergence)
+                    initial_pressure, line_search, non_convergence, solve)
 from .topology import connected_parts
+from .walls import with_wall_outputs
 
 SPARSE_FACTOR_OPTIONS = {"relax": 1, "panel_size": 1}
 """SuperLU supernode settings for factors with little fill (trees, sparse loops): tiny
@@ -59,9 +60,10 @@ def structure_key(network: Network) -> tuple:
     """What must stay equal for a prepared structure to be reused: sizes, terminals, kinds."""
     v, beds, nodes = network.vessels, network.beds, network.nodes
     lesion = ~np.isnan(v.stenosis_reduction) & ~v.occluded
+    auto = np.isfinite(beds.min_resistance_pa_s_m3) & np.isfinite(beds.target_flow_m3_s)
     return (len(nodes), len(v), len(beds), v.from_node.tobytes(), v.to_node.tobytes(),
-            v.occluded.tobytes(), lesion.tobytes(), beds.node.tobytes(), beds.outflow_node.tobytes(),
-            np.isnan(nodes.pressure_pa).tobytes())
+            v.occluded.tobytes(), lesion.tobytes(), v.distensible.tobytes(), beds.node.tobytes(),
+            beds.outflow_node.tobytes(), auto.tobytes(), np.isnan(nodes.pressure_pa).tobytes())
 
 
 class PreparedSolver:
@@ -78,6 +80,9 @@ class PreparedSolver:
 
     Notes
     -----
+    Networks with distensible vessels are passed to
+    :func:`vesselnet.solve.solve` as they are (its two-stage start from the
+    rigid solution is not repeated here).
     The choice of supernode settings depends only on the structure, so
     every process preparing the same network computes identical numbers.
     The symmetric diagonal scaling of :func:`vesselnet.assembly.solve_sparse`
@@ -88,6 +93,7 @@ class PreparedSolver:
 
     def __init__(self, network: Network, *, viscosity_pa_s: np.ndarray | None = None):
         self.key = structure_key(network)
+        self.distensible = bool((network.vessels.distensible & ~network.vessels.occluded).any())
         n_vessels = len(network.vessels)
         if viscosity_pa_s is None:
             viscosity_pa_s = np.full(n_vessels, network.blood.viscosity_pa_s)
@@ -164,6 +170,9 @@ class PreparedSolver:
         if structure_key(network) != self.key:
             raise ValueError("this network's topology differs from the prepared one; "
                              "prepare a solver for it")
+        if self.distensible:
+            return solve(network, viscosity_pa_s=self.viscosity_pa_s, tolerance=tolerance,
+                         max_iterations=max_iterations)
         groups = element_groups(network, self.viscosity_pa_s)
         nodes = network.nodes
         free, fixed, cut_off, pattern = self.free, self.fixed, self.cut_off, self.pattern
@@ -195,6 +204,7 @@ class PreparedSolver:
             if not np.isfinite(pressure[free]).all():
                 raise SolveError("the linear solve returned non-finite pressures; the system is "
                                  "singular or too badly conditioned")
-        return finish(network, groups, pressure, q, imbalance, free, fixed, cut_off,
-                      self.viscosity_pa_s, iterations, history)
+        result = finish(network, groups, pressure, q, imbalance, free, fixed, cut_off,
+                        self.viscosity_pa_s, iterations, history)
+        return with_wall_outputs(result, groups)
 

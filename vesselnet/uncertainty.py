@@ -88,6 +88,7 @@ class Uncertain:
     spread: float
     shared: bool
     where: tuple[str, int, int]
+    spread_text: str = ""
 
 
 @dataclass(frozen=True, eq=False)
@@ -206,7 +207,7 @@ def _read_entry(fr: FieldReader, item, label: str, network: Network) -> Uncertai
     what = f"{quantity} of {_target_text(item, target)}"
     return Uncertain(label=f"{label} ({what})", section=section, rows=rows, quantity=quantity,
                      distribution=distribution, relative=relative, spread=float(spread),
-                     shared=shared, where=where)
+                     shared=shared, where=where, spread_text=f"{spreads[0]} {item[spreads[0]]}")
 
 
 def _target_text(item, target: str) -> str:
@@ -307,7 +308,7 @@ def sample_network(network: Network, spec: UncertaintySpec, seed: int, index: in
                 raise NetworkSpecError([Problem(
                     file, line, col, entry.label,
                     f"sample {index} drew a {entry.quantity} <= 0 for '{item}' "
-                    f"({entry.distribution}, spread {entry.spread:g}{' relative' if entry.relative else ''})",
+                    f"({entry.distribution}, {entry.spread_text})",
                     "the spread is too wide for this distribution: narrow it or use lognormal")])
     new_v = dataclasses.replace(v, **{k: columns[k] for k in ("radius_in_m", "radius_out_m",
                                                                 "length_m", "stenosis_reduction")})

@@ -19,6 +19,9 @@ COMMANDS = (
     "solve",
     "compare",
     "calibrate",
+    "sensitivity",
+    "uncertainty",
+    "sweep",
 )
 """Modules of this package that define a command, in help order."""
 

@@ -12,6 +12,9 @@ def add_parser(sub) -> None:
                     "calibrated network file. Inconsistent targets are an error that says why.")
     p.add_argument("file", help="the network YAML file")
     p.add_argument("-o", "--output", metavar="OUT", help="write the calibrated network file here")
+    p.add_argument("--targets", metavar="TARGETS",
+                   help="a targets file (pressures, shares, flows, inflow) that adds to or replaces "
+                        "the targets in the network file")
     p.add_argument("--inflow", metavar="FLOW",
                    help="total inflow the shares refer to, for a network fed at a fixed pressure "
                         "(for example '450 mL/min'; default unit mL/min)")
@@ -32,18 +35,25 @@ def run(args) -> int:
     from .steady import emit, print_warnings
 
     network = load_network(args.file)
-    flows = {}
+    flows, inflow = {}, None
+    if args.targets:
+        from ..targets import load_targets
+
+        targets = load_targets(args.targets, network)
+        network, flows, inflow = targets.network, dict(targets.bed_flow_m3_s), targets.inflow_m3_s
     for item in args.bed_flow:
         bed, sep, value = item.partition("=")
         if not sep or not bed.strip():
             raise UnitError(f"--bed-flow: expected ID=FLOW, got {item!r}")
         flows[bed.strip()] = to_si_value(value.strip(), "flow")
-    inflow = to_si_value(args.inflow, "flow") if args.inflow else None
+    if args.inflow:
+        inflow = to_si_value(args.inflow, "flow")
     cal = calibrate(network, bed_flow_m3_s=flows or None, inflow_m3_s=inflow)
     paths = []
     if args.output:
-        header = (f"# Calibrated by vesselnet calibrate from {args.file}: the resistances of "
-                  f"{int(cal.calibrated.sum())} beds were set to meet their targets.\n")
+        source = f" with the targets of {args.targets}" if args.targets else ""
+        header = (f"# Calibrated by vesselnet calibrate from {args.file}{source}: the resistances "
+                  f"of {int(cal.calibrated.sum())} beds were set to meet their targets.\n")
         paths = write_network_with_beds(args.file, args.output, cal.network, cal.calibrated,
                                         header=header)
     if args.json:

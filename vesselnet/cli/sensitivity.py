@@ -2,13 +2,12 @@
 
 from __future__ import annotations
 
-CAUTION = ("Research and planning aid, not a medical device: rankings are to be reviewed by "
-           "licensed clinicians, deferring to local regulations and practice.")
+from ..caution import CAUTION
 
 
 def add_parser(sub) -> None:
     p = sub.add_parser(
-        "sensitivity", help="rank what changes each bed's share most (elasticities, % per %)",
+        "sensitivity", help="rank what changes each bed's share most (elasticities, %% per %%)",
         description="Derivatives of each bed's flow share with respect to every vessel radius, "
                     "bed resistance and lesion severity, by the adjoint method, as elasticities "
                     "(% change of the share per % change of the parameter).")
