@@ -171,3 +171,15 @@ def test_plots_escape_ids_and_label_units():
 @pytest.mark.parametrize("module", [viz.bands, viz.sweeps])
 def test_viz_examples(module):
     assert doctest.testmod(module, optionflags=doctest.ELLIPSIS).failed == 0
+
+
+def test_bed_flow_option_replaces_a_share(capsys):
+    """--bed-flow overrides the share the targets give that bed (here the kidneys' 11 %+11 %
+    become 500 + 600 mL/min, still 22 % of 5000 mL/min, so the targets stay consistent)."""
+    assert main(["calibrate", str(demo_path("whole_body")), "--targets",
+                 str(demo_path("whole_body_resting_targets")), "--bed-flow", "kidney_left=500",
+                 "--bed-flow", "kidney_right=600", "--json"]) == 0
+    beds = {b["id"]: b for b in json.loads(capsys.readouterr().out)["beds"]}
+    assert beds["kidney_left"]["flow"] == pytest.approx(500, rel=1e-9)
+    assert beds["kidney_right"]["flow"] == pytest.approx(600, rel=1e-9)
+    assert beds["kidney_left"]["target_share"] is None

@@ -115,3 +115,18 @@ def test_results_come_back_in_item_order_from_processes():
                       progress=lambda done, total: None)
     np.testing.assert_array_equal(out["value"], np.arange(23) ** 2)
     assert list(out["label"][:3]) == ["#0", "#1", "#2"]
+
+
+def test_unreachable_scheduler_is_an_input_error(monkeypatch, capsys):
+    import socket
+
+    import vesselnet.engine
+    from vesselnet.cli import main
+
+    with socket.socket() as probe:               # a port nobody listens on
+        probe.bind(("127.0.0.1", 0))
+        port = probe.getsockname()[1]
+    monkeypatch.setattr(vesselnet.engine, "SCHEDULER_TIMEOUT_S", 1.0)
+    assert main(["uncertainty", str(demo_path("collateral")), str(demo_path("leg_uncertainty")),
+                 "--samples", "2", "--scheduler", f"tcp://127.0.0.1:{port}"]) == 2
+    assert "cannot reach a Dask scheduler" in capsys.readouterr().err

@@ -36,7 +36,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import NetworkSpecError, SolveError
+from .errors import NetworkSpecError, Problem, SolveError
+
+SCHEDULER_TIMEOUT_S = 10.0
+"""How long to try reaching a Dask scheduler before giving up."""
 
 ProgressCallback = Callable[[int, int], None]
 """Called with (items done, items in all) after each chunk."""
@@ -216,7 +219,13 @@ def _run_scattered(task, start: int, stop: int):
 def _run_dask(task, pieces, address, progress, count):
     from distributed import Client, as_completed
 
-    client = Client(address, set_as_default=False)
+    try:
+        client = Client(address, set_as_default=False, timeout=SCHEDULER_TIMEOUT_S)
+    except (OSError, TimeoutError, ValueError) as exc:
+        raise NetworkSpecError([Problem("", 0, 0, "scheduler", f"cannot reach a Dask scheduler at "
+                                        f"'{address}' ({type(exc).__name__}: {exc})",
+                                        "check the address (tcp://host:8786) and that the scheduler "
+                                        "and its workers are running")]) from None
     try:
         shared = client.scatter(task, broadcast=True, hash=False)
         futures = [client.submit(_run_scattered, shared, start, stop, pure=False)

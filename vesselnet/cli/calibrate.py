@@ -19,7 +19,7 @@ def add_parser(sub) -> None:
                    help="total inflow the shares refer to, for a network fed at a fixed pressure "
                         "(for example '450 mL/min'; default unit mL/min)")
     p.add_argument("--bed-flow", metavar="ID=FLOW", action="append", default=[],
-                   help="a flow target for one bed instead of a share (repeatable), "
+                   help="a flow target for one bed, replacing its share (repeatable), "
                         "for example kidney_left=550")
     p.add_argument("--json", action="store_true", help="print the JSON result (and nothing else) on stdout")
     p.set_defaults(run=run)
@@ -46,6 +46,8 @@ def run(args) -> int:
         if not sep or not bed.strip():
             raise UnitError(f"--bed-flow: expected ID=FLOW, got {item!r}")
         flows[bed.strip()] = to_si_value(value.strip(), "flow")
+    if args.bed_flow:
+        network = _without_shares(network, flows)
     if args.inflow:
         inflow = to_si_value(args.inflow, "flow")
     cal = calibrate(network, bed_flow_m3_s=flows or None, inflow_m3_s=inflow)
@@ -64,6 +66,19 @@ def run(args) -> int:
              else "no file written (give -o OUT to write the calibrated network)")
     print_warnings(cal.result.warnings)
     return 0
+
+
+def _without_shares(network, flows):
+    """``network`` with the share of every bed given a flow target removed (the flow replaces it)."""
+    import dataclasses
+
+    import numpy as np
+
+    share = network.beds.share.copy()
+    for bed in flows:
+        if bed in network.beds.index:
+            share[network.beds.index[bed]] = np.nan
+    return dataclasses.replace(network, beds=dataclasses.replace(network.beds, share=share))
 
 
 def calibration_report(cal) -> str:
