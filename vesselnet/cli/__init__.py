@@ -23,6 +23,10 @@ COMMANDS = (
     "view",
     "grafts",
     "generate",
+    "calibrate",
+    "sensitivity",
+    "uncertainty",
+    "sweep",
 )
 """Modules of this package that define a command, in help order."""
 
