@@ -62,3 +62,17 @@ def test_console_script_runs_demo(tmp_path):
     run = subprocess.run([sys.executable, "-m", "vesselnet", "demo"], capture_output=True, text=True, cwd=tmp_path)
     assert run.returncode == 0, run.stderr
     assert "whole_body.yaml" in run.stdout
+
+
+def test_written_files_get_the_usual_permissions(tmp_path):
+    """Atomic writes go through mkstemp (mode 0600); the final file follows the umask instead."""
+    import os
+
+    from vesselnet.writers import atomic_write
+    old = os.umask(0o022)
+    try:
+        atomic_write(tmp_path / "x.txt", "hello")
+    finally:
+        os.umask(old)
+    assert (tmp_path / "x.txt").stat().st_mode & 0o777 == 0o644
+    assert [p.name for p in tmp_path.iterdir()] == ["x.txt"]

@@ -64,8 +64,10 @@ def test_whole_body_resting_distribution_is_plausible():
     assert 0.11 <= brain <= 0.17 and 0.18 <= kidneys <= 0.25 and 0.03 <= heart <= 0.05
 
 
-def test_demo_command_prints_every_network(capsys):
+def test_demo_command_prints_every_network(capsys, tmp_path, monkeypatch):
+    monkeypatch.chdir(tmp_path)  # the demo writes its report into the current folder
     assert main(["demo"]) == 0
+    assert (tmp_path / "vesselnet-demo" / "report.html").is_file()
     out = capsys.readouterr().out
     for name in DEMOS:
         assert f"{name}.yaml" in out

@@ -25,7 +25,7 @@ from pathlib import Path
 
 import numpy as np
 
-from . import csvtables, yamlread
+from . import csvtables, waveformtable, yamlread
 from .errors import NetworkSpecError, Problem, UnitError
 from .fields import FieldReader, near_miss
 from .model import NAN, Blood, Network
@@ -38,7 +38,7 @@ TOP_KEYS = ("vesselnet", "name", "description", "units", "blood", "venous_pressu
 VESSEL_KEYS = ("id", "from", "to", "length", "radius", "diameter", "wall", "tags", "stenosis")
 WALL_KEYS = ("thickness", "modulus", "poisson", "distensible", "external_pressure")
 STENOSIS_KEYS = ("reduction", "length", "at")
-NODE_KEYS = ("pressure", "inflow", "position", "target_pressure")
+NODE_KEYS = ("pressure", "inflow", "position", "target_pressure", "hematocrit")
 BED_KEYS = ("id", "node", "resistance", "outflow_pressure", "outflow_node", "share", "windkessel",
             "autoregulation")
 BLOOD_KEYS = ("viscosity", "density", "hematocrit", "separation")
@@ -89,7 +89,7 @@ def read_network(doc, file: str, base_dir: Path) -> Network:
     venous = fr.quantity(doc, "venous_pressure", "pressure", "venous_pressure",
                          default=5 * MMHG_PA)
     vessels, tags = read_vessels(fr, doc)
-    nodes, waveforms = read_nodes(fr, doc)
+    nodes, waveforms = read_nodes(fr, doc, base_dir)
     beds = read_beds(fr, doc)
     origins = {}  # section -> (first row from its table, table file): problems name the table
     for key, into in (("vessels_table", vessels), ("nodes_table", nodes), ("beds_table", beds)):
@@ -285,10 +285,10 @@ def read_tags(fr: FieldReader, v, label: str) -> list[str]:
     return [str(t) for t in tags]
 
 
-def read_nodes(fr: FieldReader, doc) -> tuple[dict[str, list], dict[str, dict]]:
+def read_nodes(fr: FieldReader, doc, base_dir=Path(".")) -> tuple[dict[str, list], dict[str, dict]]:
     """The ``nodes:`` mapping as SI columns, and pulsatile inflow waveforms by node id."""
     cols = {k: [] for k in ("id", "pressure_pa", "inflow_m3_s", "position_m",
-                            "target_pressure_pa", "line")}
+                            "target_pressure_pa", "line", "hematocrit")}
     waveforms: dict[str, dict] = {}
     nodes = fr.mapping(doc, "nodes", "nodes")
     for node_id, props in (nodes or {}).items():
@@ -306,7 +306,7 @@ def read_nodes(fr: FieldReader, doc) -> tuple[dict[str, list], dict[str, dict]]:
         cols["pressure_pa"].append(pressure)
         inflow = props.get("inflow")
         if isinstance(inflow, dict):
-            wave = read_waveform(fr, inflow, label)
+            wave = read_waveform(fr, inflow, label, base_dir)
             if wave:
                 waveforms[str(node_id)] = wave
             cols["inflow_m3_s"].append(wave.get("mean_m3_s", NAN) if wave else NAN)
@@ -317,6 +317,7 @@ def read_nodes(fr: FieldReader, doc) -> tuple[dict[str, list], dict[str, dict]]:
                    "keep one")
         cols["position_m"].append(read_position(fr, props, label))
         cols["target_pressure_pa"].append(fr.quantity(props, "target_pressure", "pressure", label))
+        cols["hematocrit"].append(fr.quantity(props, "hematocrit", "fraction", label, below_one=True))
         cols["line"].append(props.line)
     return cols, waveforms
 
@@ -342,9 +343,20 @@ def _index_map(seq, k):
     return m
 
 
-def read_waveform(fr: FieldReader, wave, label: str) -> dict:
+def read_waveform(fr: FieldReader, wave, label: str, base_dir=Path(".")) -> dict:
     """A pulsatile inflow (SPEC section 7) in SI, with its ``mean_m3_s``."""
     label = label + " inflow"
+    if "csv" in wave:   # {csv: file.csv}: a table of one cycle (vesselnet.waveformtable)
+        fr.allow(wave, ("csv",), label)
+        path = fr.text(wave, "csv", label, required=True)
+        if not path:
+            return {}
+        table = waveformtable.read_waveform_table(base_dir / path, "flow", fr.units, shown_as=path)
+        fr.problems.extend(table.problems)
+        if table.problems:
+            return {}
+        return {"period_s": table.period_s, "samples_m3_s": tuple(table.samples.tolist()),
+                "mean_m3_s": float(np.mean(table.samples)), "csv": path}
     if "samples" in wave:
         fr.allow(wave, ("period", "samples"), label)
         period = fr.quantity(wave, "period", "time", label, required=True, positive=True)

@@ -46,6 +46,7 @@ BED_COLUMNS = (("flow", "flow_m3_s", "flow"), ("share", "share", None),
                ("pressure", "pressure_pa", "pressure"),
                ("perfusion_pressure", "perfusion_pressure_pa", "pressure"))
 EXTRA_KINDS = {"hematocrit": None, "tube_hematocrit": None, "red_cell_flux_m3_s": "flow",
+               "red_cell_delivery_m3_s": "flow",
                "lumen_radius_m": "radius", "wall_strain": None, "wall_stress_pa": "stress",
                "volume_m3": "volume"}
 SI_SUFFIXES = ("_m3_s", "_m3", "_pa", "_m")
@@ -117,15 +118,22 @@ def nodes_json(result: SteadyResult) -> list[dict]:
     return records
 
 
-def vessel_columns(result: SteadyResult) -> dict[str, np.ndarray]:
-    """Per-vessel output columns in display units, extras included."""
-    table = result.vessel_table()
-    cols = _converted(table, VESSEL_COLUMNS)
-    for key, values in result.vessel_extra.items():
+def _with_extras(cols: dict[str, np.ndarray], extra) -> dict[str, np.ndarray]:
+    for key, values in extra.items():
         kind = EXTRA_KINDS.get(key)
         name = extra_name(key)
         cols[name] = from_si(values, kind, DISPLAY_UNITS[kind]) if kind else values
     return cols
+
+
+def vessel_columns(result: SteadyResult) -> dict[str, np.ndarray]:
+    """Per-vessel output columns in display units, extras included."""
+    return _with_extras(_converted(result.vessel_table(), VESSEL_COLUMNS), result.vessel_extra)
+
+
+def bed_columns(result: SteadyResult) -> dict[str, np.ndarray]:
+    """Per-bed output columns in display units, extras included."""
+    return _with_extras(_converted(result.bed_table(), BED_COLUMNS), result.bed_extra)
 
 
 def vessels_json(result: SteadyResult) -> list[dict]:
@@ -136,18 +144,28 @@ def vessels_json(result: SteadyResult) -> list[dict]:
 
 
 def beds_json(result: SteadyResult) -> list[dict]:
-    """The ``beds`` list: id, node, flow, share, pressure, perfusion pressure."""
+    """The ``beds`` list: id, node, flow, share, pressure, perfusion pressure, extras."""
     table = result.bed_table()
-    return _records(table["id"].tolist(), {"node": table["node"].tolist()},
-                    _converted(table, BED_COLUMNS))
+    return _records(table["id"].tolist(), {"node": table["node"].tolist()}, bed_columns(result))
 
 
 def checks_json(result: SteadyResult) -> dict:
     """The ``checks`` map: mass balance, law residual, iterations, solver, residual history."""
-    return {"mass_balance": number(result.mass_balance), "law_residual": number(result.law_residual),
-            "iterations": int(result.iterations), "solver": result.solver,
-            "residual_history": [number(h) for h in result.residual_history],
-            "condition": number(result.condition_estimate)}
+    checks = {"mass_balance": number(result.mass_balance), "law_residual": number(result.law_residual),
+              "iterations": int(result.iterations), "solver": result.solver,
+              "residual_history": [number(h) for h in result.residual_history],
+              "condition": number(result.condition_estimate)}
+    checks.update({key: _json_ready(value) for key, value in result.extra_checks.items()})
+    return checks
+
+
+def _json_ready(value):
+    """Numbers through :func:`number`, lists and mappings item by item, text as is."""
+    if isinstance(value, dict):
+        return {str(k): _json_ready(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple, np.ndarray)):
+        return [_json_ready(v) for v in value]
+    return value if isinstance(value, str) or value is None else number(value)
 
 
 def result_json(result: SteadyResult) -> dict:
@@ -298,8 +316,7 @@ def write_tables(result: SteadyResult, directory) -> list[Path]:
         "nodes.csv": csv_text(nodes["id"], {}, _converted(nodes, NODE_COLUMNS), units),
         "vessels.csv": csv_text(vessels["id"], {"from": list(vessels["from"]), "to": list(vessels["to"])},
                                 vessel_columns(result), units),
-        "beds.csv": csv_text(beds["id"], {"node": list(beds["node"])}, _converted(beds, BED_COLUMNS),
-                             units),
+        "beds.csv": csv_text(beds["id"], {"node": list(beds["node"])}, bed_columns(result), units),
     }
     atomic_write_many({directory / name: text for name, text in texts.items()})
     return [directory / name for name in texts]

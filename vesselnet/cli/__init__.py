@@ -18,6 +18,15 @@ COMMANDS = (
     "check",
     "solve",
     "compare",
+    "pulse",
+    "windkessel",
+    "view",
+    "grafts",
+    "generate",
+    "calibrate",
+    "sensitivity",
+    "uncertainty",
+    "sweep",
 )
 """Modules of this package that define a command, in help order."""
 
