@@ -66,15 +66,19 @@ def test_scenario_files(case, folder):
 
 @pytest.mark.parametrize("kind", sorted(set(fuzzkit.GENERATORS) - {"raw"}))
 def test_generators_reach_valid_files(kind, folder):
-    """The generators are not all noise: among 40 of their inputs some are valid (exit 0 for every
-    command), so the fuzzing reaches the solver and the writers, not just the first check."""
+    """The generators are not all noise: among 80 of their inputs some are valid (exit 0 for every
+    command), so the fuzzing reaches the solver and the writers, not just the first check
+    (about one in eight is expected to be valid)."""
     valid = []
 
-    @settings(FUZZ, max_examples=40)
+    @settings(FUZZ, max_examples=80)
     @given(case=fuzzkit.GENERATORS[kind]())
     def count(case):
-        statuses = [status for status, _, _ in fuzzkit.run_case(case, folder)]
-        valid.append(all(status == 0 for status in statuses))
+        outcomes = fuzzkit.run_case(case, folder)
+        valid.append(all(status == 0 for status, _, _ in outcomes))
+        if not case.mutations and not valid[-1]:
+            reasons.append(outcomes[0][2][:300])
 
+    reasons = []
     count()
-    assert sum(valid) >= 4, f"only {sum(valid)} of {len(valid)} {kind} inputs were valid"
+    assert sum(valid) >= 3, f"only {sum(valid)} of {len(valid)} {kind} inputs were valid: {reasons}"

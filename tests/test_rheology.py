@@ -342,7 +342,9 @@ def test_solve_dispatches_to_the_coupled_solve():
 def test_out_of_range_inputs_warn():
     """Diameters below the fitted 3.3 um (in vitro, Pries et al. 1992 abstract) and a
     plasma viscosity given in the wrong unit are named in the warnings."""
-    text = _yaml().replace("radius: 3}", "radius: 1.5}").replace("plasma: 1.2 cP", "plasma: 12 cP")
+    text = _yaml().replace("{id: b, from: j, to: m, length: 100, radius: 3}",
+                           "{id: b, from: j, to: m, length: 100, radius: 1.5}")
+    text = text.replace("plasma: 1.2 cP", "plasma: 12 cP")
     result = solve_rheology(read_network_text(text))
     joined = " ".join(result.warnings)
     assert "narrower than the fitted range" in joined and "'b'" in joined

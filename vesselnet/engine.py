@@ -119,6 +119,9 @@ def run_chunked(task, count: int, *, execution: Execution = Execution(),
     ------
     NetworkSpecError, SolveError
         As raised by the task, with their messages, from whichever worker.
+    vesselnet.interrupts.Interrupted
+        On Ctrl-C: ``done`` items finished in order, their joined arrays as
+        ``partial``.
     """
     size = chunk_size or default_chunk_size(count, execution)
     pieces = chunks(count, size)
@@ -128,11 +131,30 @@ def run_chunked(task, count: int, *, execution: Execution = Execution(),
         parts = _run_processes(task, pieces, execution.workers, progress, count)
     else:
         parts = []
-        for start, stop in pieces:
-            parts.append(task.run_chunk(start, stop))
-            if progress:
-                progress(stop, count)
+        try:
+            for start, stop in pieces:
+                parts.append(task.run_chunk(start, stop))
+                if progress:
+                    progress(stop, count)
+        except KeyboardInterrupt:
+            raise _interrupted(parts, pieces, count) from None
     return join(parts)
+
+
+def _interrupted(parts: list, pieces, count: int):
+    """An :class:`~vesselnet.interrupts.Interrupted` carrying the finished leading chunks."""
+    from .interrupts import Interrupted
+
+    done = pieces[len(parts) - 1][1] if parts else 0
+    return Interrupted(done, count, partial=join(parts))
+
+
+def _finished_prefix(results: dict[int, dict]) -> list:
+    """The chunks 0, 1, ... finished without a gap (later ones finished early are dropped)."""
+    prefix = []
+    while len(prefix) in results:
+        prefix.append(results[len(prefix)])
+    return prefix
 
 
 def join(parts: list[dict[str, np.ndarray]]) -> dict[str, np.ndarray]:
@@ -204,6 +226,10 @@ def _run_processes(task, pieces, workers, progress, count):
             for f in futures:
                 f.cancel()
             raise exc.original() from None
+        except KeyboardInterrupt:
+            for f in futures:
+                f.cancel()
+            raise _interrupted(_finished_prefix(results), pieces, count) from None
         except BaseException:
             for f in futures:
                 f.cancel()
@@ -243,6 +269,9 @@ def _run_dask(task, pieces, address, progress, count):
         except CarriedError as exc:
             client.cancel(futures)
             raise exc.original() from None
+        except KeyboardInterrupt:
+            client.cancel(futures)
+            raise _interrupted(_finished_prefix(results), pieces, count) from None
         except BaseException:
             client.cancel(futures)
             raise

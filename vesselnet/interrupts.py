@@ -5,7 +5,9 @@ user presses Ctrl-C, the items already solved are results too.  The
 contract for such a run:
 
 1. compute items in order with :func:`run_keeping_finished`, which stops
-   at an interrupt and returns the finished results with ``complete=False``;
+   at an interrupt and returns the finished results with ``complete=False``
+   (:func:`vesselnet.engine.run_chunked` instead raises :class:`Interrupted`
+   carrying the finished items as ``partial``);
 2. write the outputs of the finished items, each file atomically
    (:func:`vesselnet.writers.atomic_write_many`), marked as partial (for
    example a ``partial`` field in JSON, ``samples.partial.csv`` as name);
@@ -43,14 +45,28 @@ class Interrupted(KeyboardInterrupt):
     unit : str
         What the items are ('samples', 'scenarios', ...).
     kept : sequence of str
-        Files holding the finished results ('' when nothing was written).
+        Files holding the finished results (none when nothing was written).
+    partial : object, optional
+        The finished results themselves, for the caller to write (for
+        :func:`vesselnet.engine.run_chunked`: the joined arrays of items
+        ``0 .. done-1``).
     """
 
-    def __init__(self, done: int, total: int, unit: str = "items", kept: Sequence[str] = ()):
+    def __init__(self, done: int, total: int, unit: str = "items", kept: Sequence[str] = (),
+                 partial=None):
         self.done, self.total, self.unit, self.kept = int(done), int(total), unit, tuple(map(str, kept))
-        where = (f"; the finished results are in {', '.join(self.kept)}" if self.kept and self.done
-                 else "; nothing was finished, no output was written")
+        self.partial = partial
+        if not self.done:
+            where = "; nothing was finished, no output was written"
+        elif self.kept:
+            where = f"; the finished results are in {', '.join(self.kept)}"
+        else:
+            where = "; the finished results were not kept (this run writes none when interrupted)"
         super().__init__(f"interrupted after {self.done} of {self.total} {unit}{where}")
+
+    def kept_in(self, kept: Sequence[str], unit: str | None = None) -> "Interrupted":
+        """The same interruption, naming the files that now hold the finished results."""
+        return Interrupted(self.done, self.total, unit or self.unit, kept, self.partial)
 
 
 @dataclass

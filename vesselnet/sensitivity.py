@@ -25,15 +25,15 @@ Examples
 >>> net = Network.build(nodes={"r": {"pressure_pa": 13332.2}},
 ...     vessels=[{"id": "a", "from": "r", "to": "j", "length_m": 0.1, "radius_m": 0.002},
 ...              {"id": "b", "from": "j", "to": "t", "length_m": 0.1, "radius_m": 0.001},
-...              {"id": "c", "from": "j", "to": "u", "length_m": 0.1, "radius_m": 0.001}],
+...              {"id": "c", "from": "j", "to": "u", "length_m": 0.1, "radius_m": 0.0012}],
 ...     beds=[{"id": "x", "node": "t", "resistance_pa_s_m3": 1e9},
-...           {"id": "y", "node": "u", "resistance_pa_s_m3": 1e9}])
+...           {"id": "y", "node": "u", "resistance_pa_s_m3": 2e9}])
 >>> sens = sensitivity(net)
 >>> for kind, item, e in sens.ranked("x", top=3):
 ...     print(kind, item, round(e, 4))
-radius c -0.9425
-radius b 0.9425
-resistance y 0.2644
+radius b 0.825
+resistance y 0.3603
+radius c -0.3097
 """
 
 from __future__ import annotations

@@ -380,13 +380,19 @@ def flow_scale(q: np.ndarray, injection: np.ndarray) -> float:
 def line_search(pressure, step, free, evaluate, worst, scale, max_halvings=12):
     """Take the Newton step, halving it while the imbalance grows.
 
-    ``pressure`` is the pair (high, low) of double-double pressures.
+    ``pressure`` is an array, or the pair (high, low) of double-double
+    pressures (see :func:`group_flows`); ``evaluate`` takes the same.
     """
     fraction = 1.0
     rows = np.flatnonzero(free)
     for _ in range(max_halvings):
-        trial = add_step(*pressure, rows, fraction * step)
-        q, dqa, dqb, imbalance = evaluate(*trial)
+        if isinstance(pressure, tuple):
+            trial = add_step(*pressure, rows, fraction * step)
+            q, dqa, dqb, imbalance = evaluate(*trial)
+        else:
+            trial = pressure.copy()
+            trial[free] += fraction * step
+            q, dqa, dqb, imbalance = evaluate(trial)
         if float(np.abs(imbalance[free]).max(initial=0.0)) / scale <= max(worst, 1e-300) * 1.0001:
             break
         fraction /= 2

@@ -62,6 +62,7 @@ from .changefile import VERBS, Change, apply_changes, read_change, read_changes
 from .engine import Execution, ProgressCallback, run_chunked
 from .errors import NetworkSpecError, Problem, SolveError
 from .fields import FieldReader, near_miss
+from .interrupts import Interrupted
 from .model import Network
 from .reader import check_version, load_network, read_units
 from .solve import solve
@@ -405,11 +406,28 @@ def run_sweep(spec: SweepSpec, *, execution: Execution = Execution(), chunk_size
         A change cannot be made (for example a lesion longer than its vessel).
     SolveError
         The unchanged network itself does not solve.
+    Interrupted
+        On Ctrl-C, with the finished cases as ``partial`` (a SweepResult whose
+        later cases are NaN and marked :data:`NOT_RUN`).
     """
     baseline = solve(apply_changes(spec.network, spec.common)).bed_flow_m3_s
     task = SweepTask(spec.network, spec.common, spec.cases, baseline)
-    out = run_chunked(task, len(spec.cases), execution=execution, chunk_size=chunk_size,
-                      progress=progress)
+    try:
+        out = run_chunked(task, len(spec.cases), execution=execution, chunk_size=chunk_size,
+                          progress=progress)
+    except Interrupted as exc:  # the finished cases, the rest marked as not run
+        out = task.run_chunk(0, 0) if not exc.done else exc.partial
+        missing = len(spec.cases) - exc.done
+        out = {k: np.concatenate([v, np.full((missing,) + v.shape[1:], np.nan if k != "failure"
+                                              else NOT_RUN, dtype=v.dtype)]) for k, v in out.items()}
+        partial = SweepResult(spec=spec, execution=execution.describe(), bed_share=out["bed_share"],
+                              bed_flow_m3_s=out["bed_flow_m3_s"], bed_pressure_pa=out["bed_pressure_pa"],
+                              inflow_m3_s=out["inflow_m3_s"], failure=tuple(out["failure"]))
+        raise Interrupted(exc.done, len(spec.cases), "cases", partial=partial) from None
     return SweepResult(spec=spec, execution=execution.describe(), bed_share=out["bed_share"],
                        bed_flow_m3_s=out["bed_flow_m3_s"], bed_pressure_pa=out["bed_pressure_pa"],
                        inflow_m3_s=out["inflow_m3_s"], failure=tuple(out["failure"]))
+
+
+NOT_RUN = "not run: the sweep was interrupted"
+"""The failure text of the cases an interrupted sweep did not reach."""

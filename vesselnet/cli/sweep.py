@@ -25,6 +25,7 @@ def run(args) -> int:
     import time
 
     from .. import writers
+    from ..interrupts import Interrupted
     from ..sweep import load_sweep, run_sweep
     from .progress import ProgressBar
     from .steady import emit, print_warnings
@@ -34,24 +35,32 @@ def run(args) -> int:
     execution = execution_of(args)
     bar = ProgressBar(len(spec.cases), "sweep", unit="cases")
     start = time.perf_counter()
+    interrupted = None
     try:
         result = run_sweep(spec, execution=execution, chunk_size=args.chunk, progress=bar)
+    except Interrupted as exc:  # keep the finished cases: write them, then say how far it got
+        interrupted, result = exc, exc.partial
     finally:
         bar.close()
     seconds = time.perf_counter() - start
     written = []
     if args.output:
-        written.append(write_sweep_table(result, args.output))
+        written.append(write_sweep_table(result, args.output, partial=interrupted is not None))
     if args.html:
         from viz.sweeps import write_sweep_page
 
         written.append(write_sweep_page(result, args.html))
     if args.json:
-        emit(writers.dumps(sweep_json(result)))
+        doc = sweep_json(result)
+        if interrupted is not None:
+            doc["interrupted"] = {"done": interrupted.done, "total": interrupted.total}
+        emit(writers.dumps(doc))
     else:
         emit(sweep_report(result, seconds))
         if written:
             emit("wrote " + ", ".join(str(p) for p in written))
+    if interrupted is not None:
+        raise interrupted.kept_in(written + (["standard output (JSON)"] if args.json else []))
     print_warnings([f"case '{name}' failed: {why}" for name, why in
                     zip(spec.case_names, result.failure) if why])
     return 0
@@ -119,8 +128,11 @@ def sweep_json(result) -> dict:
             "caution": CAUTION, "parameters": params, "cases": cases}
 
 
-def write_sweep_table(result, directory):
-    """``sweep.csv``: one row per case, parameter values and each reported bed's share."""
+def write_sweep_table(result, directory, *, partial: bool = False):
+    """``sweep.csv``: one row per case, parameter values and each reported bed's share.
+
+    An interrupted sweep writes ``sweep.partial.csv``, the cases not run left empty.
+    """
     from pathlib import Path
 
     from .. import writers
@@ -139,6 +151,6 @@ def write_sweep_table(result, directory):
     columns["inflow"] = result.inflow_m3_s * 6e7
     units["inflow"] = "mL/min"
     text = writers.csv_text(list(spec.case_names), {}, columns, units).replace("id,", "case,", 1)
-    path = directory / "sweep.csv"
+    path = directory / ("sweep.partial.csv" if partial else "sweep.csv")
     writers.atomic_write(path, text)
     return path
