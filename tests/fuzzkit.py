@@ -12,8 +12,8 @@ the promise of SPEC section 4: exit 0, or 2 with a one-paragraph message,
 or 1 for a numerical failure with its reason; never a traceback, an
 internal error or a hang.
 
-To fuzz a new file kind (graft plans, say), write a strategy returning a
-:class:`Case` and add it to :data:`GENERATORS`.
+To fuzz a new file kind, write a strategy returning a :class:`Case` and
+add it to :data:`GENERATORS` (and a property to ``test_fuzz_readers.py``).
 """
 
 from __future__ import annotations
@@ -453,8 +453,79 @@ def scenario_files(draw) -> Case:
                 [["check", "scen.yaml"], ["compare", "scen.yaml", "--json"]], mutations + damage)
 
 
+@st.composite
+def sweep_files(draw) -> Case:
+    """A sweep file on the small fixed network: one or two swept change arguments, or a list of
+    cases; half clean, the rest with odd ranges (huge or negative steps, reversed or log
+    ranges through zero), mutated and damaged."""
+    clean = draw(st.booleans())
+    doc = {"vesselnet": 1, "network": "base.yaml"}
+    if draw(st.integers(0, 3)):
+        swept = [({"narrow": {"vessel": "a", "length": 1}}, "reduction",
+                  {"from": "0%", "to": draw(st.sampled_from(["80%", "50%"])), "steps": 3}),
+                 ({"scale_bed": {"bed": "bed1"}}, "factor", [0.5, 1, 2]),
+                 ({"scale_radius": {"vessel": "b"}}, "factor",
+                  {"from": 0.5, "to": 2, "steps": 2, "scale": "log"})]
+        chosen = draw(st.lists(st.sampled_from(range(3)), min_size=1, max_size=2, unique=True))
+        doc["parameters"] = [{"name": f"p{k}", "change": swept[k][0], "vary": swept[k][1],
+                              "values": json.loads(json.dumps(swept[k][2]))} for k in chosen]
+        if not clean:
+            values = doc["parameters"][0]["values"]
+            if isinstance(values, dict):
+                values[draw(st.sampled_from(["steps", "from", "to", "scale"]))] = draw(st.one_of(
+                    st.sampled_from([0, -3, 1.5, 10**9, 10**6, "5", "log", "sideways", "-1%"]), odd_value()))
+    else:
+        doc["cases"] = [{"name": f"c{k}" if clean else draw(st.one_of(st.just(f"c{k}"), ids())),
+                         "changes": draw(st.lists(change(clean), min_size=0, max_size=2))}
+                        for k in range(draw(st.integers(1, 3)))]
+    if draw(st.booleans()):
+        doc["report"] = draw(st.sampled_from([["bed1"], ["bed1", "bed2"]]) if clean
+                             else st.lists(st.one_of(st.sampled_from(BEDS), ids()), max_size=3))
+    mutations = []
+    if not clean:
+        doc, mutations = draw(mutated(doc))
+    data, damage = draw(damaged(dump(doc))) if not clean else (dump(doc).encode(), [])
+    return Case("sweep", {"sweep.yaml": data, "base.yaml": BASE_NETWORK.encode()}, "sweep.yaml",
+                [["check", "sweep.yaml"], ["sweep", "sweep.yaml", "--json"]], mutations + damage)
+
+
+@st.composite
+def plan_files(draw) -> Case:
+    """A graft plan on the small fixed network: a condition, targets, candidate grafts
+    (``add_vessel`` mappings with an id, a conduit or a wall); half clean."""
+    clean = draw(st.booleans())
+    candidates = []
+    for k in range(draw(st.integers(1, 3))):
+        candidate = {"id": f"g{k}" if clean else draw(st.one_of(st.just(f"g{k}"), ids())),
+                     "from": draw(st.sampled_from(["root", {"vessel": "a", "at": 0.3}])),
+                     "to": draw(st.sampled_from(["t1", "t2", {"vessel": "b", "at": 0.6}])),
+                     "length": draw(quantity("length", 2.0, 30.0, clean)),
+                     "radius": draw(quantity("radius", 0.5, 3.0, clean))}
+        if draw(st.booleans()):
+            candidate["conduit"] = draw(st.sampled_from(["vein-autologous", "ptfe-tube"]) if clean
+                                        else st.sampled_from(["vein-autologous", "ptfe", "", "gold"]))
+        candidates.append(candidate)
+    doc = {"vesselnet": 1, "network": "base.yaml",
+           "condition": draw(st.lists(st.sampled_from([{"occlude": {"vessel": "b"}},
+                                                       {"narrow": {"vessel": "a", "reduction": "70%",
+                                                                   "length": 2}}]),
+                                      min_size=1, max_size=2, unique_by=json.dumps)),
+           "targets": draw(st.sampled_from([["bed1"], ["bed1", "bed2"]]) if clean
+                           else st.lists(st.one_of(st.sampled_from(BEDS), ids()), max_size=3)),
+           "candidates": candidates, "robustness": {"samples": 3, "seed": 11}}
+    if draw(st.booleans()):
+        doc["territory"] = draw(st.sampled_from(["infrainguinal"] if clean else ["infrainguinal", "moon"]))
+    mutations = []
+    if not clean:
+        doc, mutations = draw(mutated(doc))
+    data, damage = draw(damaged(dump(doc))) if not clean else (dump(doc).encode(), [])
+    return Case("plan", {"plan.yaml": data, "base.yaml": BASE_NETWORK.encode()}, "plan.yaml",
+                [["check", "plan.yaml"], ["grafts", "plan.yaml", "--json", "--samples", "3"]],
+                mutations + damage)
+
+
 GENERATORS = {"network": network_files, "raw": raw_files, "tables": table_files,
-              "scenario": scenario_files}
+              "scenario": scenario_files, "sweep": sweep_files, "plan": plan_files}
 """File kind -> strategy drawing a :class:`Case`."""
 
 

@@ -64,6 +64,18 @@ def test_scenario_files(case, folder):
     fuzzkit.run_case(case, folder)
 
 
+@settings(FUZZ, max_examples=max(EXAMPLES * 2 // 3, 1))
+@given(case=fuzzkit.sweep_files())
+def test_sweep_files(case, folder):
+    fuzzkit.run_case(case, folder)
+
+
+@settings(FUZZ, max_examples=max(EXAMPLES * 2 // 3, 1))
+@given(case=fuzzkit.plan_files())
+def test_plan_files(case, folder):
+    fuzzkit.run_case(case, folder)
+
+
 @pytest.mark.parametrize("kind", sorted(set(fuzzkit.GENERATORS) - {"raw"}))
 def test_generators_reach_valid_files(kind, folder):
     """The generators are not all noise: among 80 of their inputs some are valid (exit 0 for every

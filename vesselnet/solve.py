@@ -280,7 +280,8 @@ def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s
                     (pressure, low), (q, dqa, dqb, imbalance) = trial, polished
             break
         if iterations >= max_iterations or stalled >= STALL_STEPS:
-            raise non_convergence(network, imbalance, free, history, factor, dqa)
+            raise non_convergence(network, imbalance, free, history, factor, dqa,
+                                  stalled=stalled >= STALL_STEPS)
         J = pattern.matrix(dqa, dqb, -dqa, -dqb)
         try:
             factor = ScaledFactor(J)
@@ -400,7 +401,7 @@ def line_search(pressure, step, free, evaluate, worst, scale, max_halvings=12):
 
 
 def non_convergence(network: Network, imbalance, free, history, factor=None,
-                    slope=None) -> SolveError:
+                    slope=None, stalled=False) -> SolveError:
     """The error for a Newton solve that did not converge, naming the worst node.
 
     A solve that stalled says so, with the condition estimate and the spread
@@ -410,16 +411,17 @@ def non_convergence(network: Network, imbalance, free, history, factor=None,
     worst = rows[int(np.argmax(np.abs(imbalance[rows])))]
     node = network.nodes.ids[worst]
     trail = ", ".join(f"{h:.1e}" for h in history[-5:])
-    if len(history) > STALL_STEPS and min(history[-STALL_STEPS - 1:]) > 0.99 * history[-STALL_STEPS - 1]:
+    if stalled:
         size = np.abs(slope[np.isfinite(slope) & (slope != 0)]) if slope is not None else ()
         spread = f", conductances spanning {float(size.max()) / float(size.min()):.1e}" \
             if len(size) else ""
         cond = f"condition estimate {factor.condition_estimate():.1e}" if factor else ""
         return SolveError(f"the steady solve stalled after {len(history) - 1} Newton steps at a "
                           f"flow imbalance of {history[-1]:.2e} of the total inflow, at node "
-                          f"'{node}' ({cond}{spread}): double precision cannot resolve this "
-                          "network; check for extreme lengths, radii or resistances, or a unit "
-                          "slip", ids=(node,))
+                          f"'{node}': {STALL_STEPS} steps in a row gained less than 1 % ({cond}"
+                          f"{spread}); the usual cause is a value beyond double precision (an "
+                          "extreme length, radius or resistance, or a unit slip), else lesions or "
+                          "distensible walls near that node", ids=(node,))
     return SolveError(f"the steady solve did not converge in {len(history) - 1} Newton steps: "
                       f"largest flow imbalance {history[-1]:.2e} of the total inflow, at node "
                       f"'{node}' (last residuals {trail}); check lesions, distensible walls and "

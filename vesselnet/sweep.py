@@ -141,12 +141,13 @@ def read_sweep(doc, file: str, base_dir: Path) -> SweepSpec:
                "a sweep varies parameters over values, or lists cases of changes")
     elif "parameters" in doc:
         parameters = _read_parameters(fr, doc)
-        if parameters:
+        size = int(np.prod([len(p.values) for p in parameters])) if parameters else 0
+        if size > MAX_CASES:  # refused before the grid is built
+            fr.add(doc.where("parameters"), "parameters",
+                   f"the grid has {size} cases, more than {MAX_CASES}", "use fewer steps")
+        elif parameters:
             grid = np.array(np.meshgrid(*[p.values for p in parameters], indexing="ij")).reshape(
                 len(parameters), -1).T
-            if len(grid) > MAX_CASES:
-                fr.add(doc.where("parameters"), "parameters",
-                       f"the grid has {len(grid)} cases, more than {MAX_CASES}", "use fewer steps")
             case_names = tuple(_case_name(parameters, row) for row in grid)
             cases = tuple(tuple(dataclasses.replace(p.change, arguments={**p.change.arguments,
                                                                        p.keyword: float(x)})
@@ -251,8 +252,9 @@ def _read_values(fr: FieldReader, item, kind: str, options: dict, label: str) ->
         return []
     if steps is None or not np.isfinite(start) or not np.isfinite(stop):
         return []
-    if steps < 1:
-        fr.add(spec.where("steps"), f"{label} values", f"steps must be at least 1, got {steps}")
+    if steps < 1 or steps > MAX_CASES:
+        fr.add(spec.where("steps"), f"{label} values",
+               f"steps must be between 1 and {MAX_CASES}, got {steps}")
         return []
     if scale == "log":
         if not (start > 0 and stop > 0):
