@@ -9,6 +9,7 @@ flows written in the same document; the caution is the one sentence of vesselnet
 import html
 import json
 import subprocess
+import tempfile
 import sys
 
 import pytest
@@ -121,5 +122,6 @@ def test_the_library_side_never_imports_plotly_or_viz():
             "vesselnet.planfile, vesselnet.conduits, vesselnet.graftflags, vesselnet.cli.grafts; "
             "from vesselnet.cli import build_parser; build_parser(); "
             "print(sorted(m for m in sys.modules if m.split('.')[0] in ('plotly', 'viz')))")
-    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True,
+                         cwd=tempfile.gettempdir()).stdout
     assert out.strip() == "[]"
