@@ -229,6 +229,10 @@ def load_text(text: str, file: str = "<input>"):
         mark = exc.problem_mark or exc.context_mark
         line, col = (mark.line + 1, mark.column + 1) if mark else (0, 0)
         what = exc.problem or str(exc)
+        if "nesting depth" in what:  # libyaml's own limit, met while it reads ahead
+            raise NetworkSpecError([Problem(
+                file, line, col, "", f"mappings and lists are nested more than {MAX_DEPTH} levels "
+                "deep", "a network file needs only a few levels")]) from None
         raise NetworkSpecError([Problem(file, line, col, "", f"malformed YAML: {what}",
                                         "check indentation, colons and quotes")]) from None
     except yaml.YAMLError as exc:
