@@ -26,9 +26,10 @@ import dataclasses
 
 import numpy as np
 
-from .assembly import NodalPattern, solve_sparse
+from .assembly import NodalPattern
 from .elements import ElementGroup, LinearLaw, QuadraticLaw
 from .errors import SolveError
+from .linsolve import Factorization
 from .model import Network
 from .resistance import tapered_resistance
 from .result import SteadyResult, laminar_warnings
@@ -99,7 +100,8 @@ def element_groups(network: Network, viscosity_pa_s: np.ndarray, *,
 
 def solve(network: Network, *, viscosity_pa_s: np.ndarray | None = None,
           tolerance: float = DEFAULT_TOLERANCE,
-          max_iterations: int = DEFAULT_MAX_ITERATIONS) -> SteadyResult:
+          max_iterations: int = DEFAULT_MAX_ITERATIONS, method: str = "auto",
+          factorization: Factorization | None = None) -> SteadyResult:
     """Steady pressures and flows of ``network``.
 
     Parameters
@@ -113,10 +115,18 @@ def solve(network: Network, *, viscosity_pa_s: np.ndarray | None = None,
         Convergence: largest nodal imbalance relative to the total inflow.
     max_iterations : int
         Newton step cap.
+    method : {'auto', 'superlu', 'tree', 'cholmod', 'amg'}
+        Linear solver (see :mod:`vesselnet.linsolve`); ``auto`` eliminates
+        trees in O(n) and factorises other networks.
+    factorization : Factorization, optional
+        Reuse the analysis (ordering, symbolic factorisation) of an earlier
+        solve of a network with the same topology (samples of a study);
+        ``method`` is then ignored.
 
     Returns
     -------
     SteadyResult
+        ``solver`` and ``solver_reason`` say which linear solver ran and why.
 
     Raises
     ------
@@ -130,12 +140,13 @@ def solve(network: Network, *, viscosity_pa_s: np.ndarray | None = None,
     viscosity_pa_s = np.asarray(viscosity_pa_s, dtype=float)
     groups = element_groups(network, viscosity_pa_s)
     return solve_groups(network, groups, viscosity_pa_s=viscosity_pa_s, tolerance=tolerance,
-                        max_iterations=max_iterations)
+                        max_iterations=max_iterations, method=method, factorization=factorization)
 
 
 def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s: np.ndarray,
                  tolerance: float = DEFAULT_TOLERANCE,
-                 max_iterations: int = DEFAULT_MAX_ITERATIONS) -> SteadyResult:
+                 max_iterations: int = DEFAULT_MAX_ITERATIONS, method: str = "auto",
+                 factorization: Factorization | None = None) -> SteadyResult:
     """Newton solve of given element groups on ``network``'s nodes (see :func:`solve`).
 
     Parts of the network cut off from every pressure reference (possible
@@ -151,6 +162,7 @@ def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s
     a = np.concatenate([g.a for g in groups])
     b = np.concatenate([g.b for g in groups])
     pattern = NodalPattern(n, a, b, free)
+    linear = factorization if factorization is not None else Factorization(method)
     injection = np.where(np.isnan(nodes.inflow_m3_s) | cut_off, 0.0, nodes.inflow_m3_s)
     pressure = initial_pressure(network, groups, fixed)
     pressure[cut_off] = np.nan
@@ -175,14 +187,14 @@ def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s
         if iterations >= max_iterations:
             raise non_convergence(network, imbalance, free, history)
         J = pattern.matrix(dqa, dqb, -dqa, -dqb)
-        step = solve_sparse(J, -imbalance[free])
+        step = linear.solve(J, -imbalance[free])
         pressure, q, dqa, dqb, imbalance = line_search(pressure, step, free, evaluate, worst, scale)
         iterations += 1
         if not np.isfinite(pressure[free]).all():
             raise SolveError("the linear solve returned non-finite pressures; the system is "
                              "singular or too badly conditioned")
     return finish(network, groups, pressure, q, imbalance, free, fixed, cut_off, viscosity_pa_s,
-                  iterations, history)
+                  iterations, history, linear=linear)
 
 
 def initial_pressure(network: Network, groups, fixed: np.ndarray) -> np.ndarray:
@@ -224,7 +236,7 @@ def non_convergence(network: Network, imbalance, free, history) -> SolveError:
 
 
 def finish(network, groups, pressure, q, imbalance, free, fixed, cut_off, viscosity_pa_s,
-           iterations, history) -> SteadyResult:
+           iterations, history, *, linear: Factorization | None = None) -> SteadyResult:
     """Map element flows back to vessels and beds and check the invariants."""
     v = network.vessels
     vessel_flow = np.zeros(len(v))
@@ -252,7 +264,9 @@ def finish(network, groups, pressure, q, imbalance, free, fixed, cut_off, viscos
         boundary_inflow_m3_s=boundary, vessel_viscosity_pa_s=viscosity_pa_s,
         vessel_resistance_pa_s_m3=effective, iterations=iterations,
         residual_history=tuple(history), mass_balance=mass_balance,
-        law_residual=law_error / drop_scale, solver="superlu (MMD_AT_PLUS_A ordering)")
+        law_residual=law_error / drop_scale,
+        solver=linear.description if linear else "superlu (MMD_AT_PLUS_A ordering)",
+        solver_reason=linear.reason if linear else "")
     warnings = laminar_warnings(network, result.vessel_reynolds)
     if cut_off.any():
         names = ", ".join(f"'{network.nodes.ids[i]}'" for i in np.flatnonzero(cut_off)[:8])

@@ -130,6 +130,7 @@ def checks_json(result: SteadyResult) -> dict:
     """The ``checks`` map: mass balance, law residual, iterations, solver, residual history."""
     return {"mass_balance": number(result.mass_balance), "law_residual": number(result.law_residual),
             "iterations": int(result.iterations), "solver": result.solver,
+            "solver_reason": result.solver_reason,
             "residual_history": [number(h) for h in result.residual_history]}
 
 
