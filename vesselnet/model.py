@@ -242,7 +242,7 @@ class Network:
             from_rows = _rows(index, vessels["from"])
             to_rows = _rows(index, vessels["to"])
         n_nodes = len(node_ids)
-        given = _rows(index, given_ids)
+        given = np.arange(n_nodes) if "from_node" in vessels else _rows(index, given_ids)
 
         def node_col(key, default, width=None):
             shape = (n_nodes,) if width is None else (n_nodes, width)

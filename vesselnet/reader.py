@@ -50,7 +50,10 @@ def load_network(path) -> Network:
     Parameters
     ----------
     path : str or Path
-        The network file; table paths inside it are relative to it.
+        The network file; table paths inside it are relative to it.  A
+        ``.json`` file holds the same document as JSON, a ``.npz`` file the
+        binary columns written by ``vesselnet convert`` (see
+        :mod:`vesselnet.netfiles`); any other name is read as YAML.
 
     Returns
     -------
@@ -63,6 +66,11 @@ def load_network(path) -> Network:
     NetworkSpecError
         With every problem found, each naming file, line, item and fix.
     """
+    suffix = Path(path).suffix.lower()
+    if suffix in (".json", ".npz"):
+        from . import netfiles
+
+        return netfiles.read_json(path) if suffix == ".json" else netfiles.read_npz(path)
     doc = yamlread.load_file(path)
     return read_network(doc, str(path), Path(path).parent)
 

@@ -17,6 +17,7 @@ COMMANDS = (
     "demo",
     "check",
     "solve",
+    "convert",
 )
 """Modules of this package that define a command, in help order."""
 
