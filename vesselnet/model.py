@@ -33,6 +33,20 @@ import numpy as np
 NAN = float("nan")
 
 
+class _LazyIndex(dict):
+    """id -> row, built on first lookup (binary input maps no ids at all)."""
+
+    def __init__(self, ids):
+        super().__init__()
+        self._ids = ids
+
+    def __missing__(self, key):
+        if len(self) < len(self._ids):
+            self.update(zip(self._ids, range(len(self._ids))))
+            return self[key]
+        raise KeyError(key)
+
+
 def _rows(index: Mapping[str, int], ids) -> np.ndarray:
     """Rows of ``ids`` in ``index`` (one C-level pass: ``map`` over the dict)."""
     return np.fromiter(map(index.__getitem__, map(str, ids)), dtype=np.int64, count=len(ids))
@@ -41,6 +55,11 @@ def _rows(index: Mapping[str, int], ids) -> np.ndarray:
 def _is_rows(values) -> bool:
     """Whether a node column already holds rows (an integer array) rather than ids."""
     return isinstance(values, np.ndarray) and values.dtype.kind in "iu"
+
+
+def _constant(n: int, value, dtype) -> np.ndarray:
+    """A read-only column of one value that takes no memory (a broadcast view)."""
+    return np.broadcast_to(np.array(value, dtype=dtype), (n,))
 
 
 def _frozen_array(values, dtype) -> np.ndarray:
@@ -230,7 +249,7 @@ class Network:
         given_ids = list(map(str, nodes["id"]))
         if "from_node" in vessels:     # rows of nodes["id"] already: no mapping
             node_ids = tuple(given_ids)
-            index = dict(zip(node_ids, range(len(node_ids))))
+            index = _LazyIndex(node_ids)
             from_rows = np.asarray(vessels["from_node"], dtype=np.int64)
             to_rows = np.asarray(vessels["to_node"], dtype=np.int64)
         else:
@@ -246,7 +265,12 @@ class Network:
 
         def node_col(key, default, width=None):
             shape = (n_nodes,) if width is None else (n_nodes, width)
-            out = np.full(shape, default, dtype=float if default is not None else np.int64)
+            dtype = float if default is not None else np.int64
+            if key not in nodes or not len(given):
+                return np.broadcast_to(np.array(default, dtype=dtype), shape)
+            if len(given) == n_nodes and "from_node" in vessels:     # every node, in order
+                return np.asarray(nodes[key], dtype=dtype).reshape(shape)
+            out = np.full(shape, default, dtype=dtype)
             if key in nodes and len(given):
                 out[given] = np.asarray(nodes[key], dtype=out.dtype).reshape((len(given),) + shape[1:])
             return out
@@ -263,7 +287,7 @@ class Network:
         def col(key, default, dtype=float):
             if key in vessels:
                 return np.asarray(vessels[key], dtype=dtype)
-            return np.full(n, default, dtype=dtype)
+            return _constant(n, default, dtype)
 
         r_in = col("radius_in_m", NAN) if "radius_in_m" in vessels else col("radius_m", NAN)
         r_out = col("radius_out_m", NAN) if "radius_out_m" in vessels else col("radius_m", NAN)
@@ -285,7 +309,7 @@ class Network:
         def bed_col(key, default, dtype=float):
             if key in beds:
                 return np.asarray(beds[key], dtype=dtype).reshape(m)
-            return np.full(m, default, dtype=dtype)
+            return _constant(m, default, dtype)
 
         if _is_rows(beds.get("outflow_node")):
             outflow_node = np.asarray(beds["outflow_node"], dtype=np.int64).reshape(m)

@@ -137,7 +137,8 @@ def read_npz(path) -> Network:
                **{c: arrays[f"vessel_{c}"] for c in _VESSEL_COLUMNS}}
     beds = {"id": arrays["bed_id"].tolist(), **{c: arrays[f"bed_{c}"] for c in _BED_COLUMNS}}
     nodes = {"id": node_ids, **{c: arrays[f"node_{c}"] for c in _NODE_COLUMNS}}
-    waveforms = {node_ids[int(k)]: w for k, w in header.get("inflow_waveforms", {}).items()}
+    waveforms = {node_ids[int(k)]: {key: tuple(x) if isinstance(x, list) else x for key, x in w.items()}
+                 for k, w in header.get("inflow_waveforms", {}).items()}
     blood = Blood(**header.get("blood", {}))
     network = Network.from_columns(vessels=vessels, nodes=nodes, beds=beds, tags=tags,
                                    name=header.get("name") or Path(file).stem, blood=blood,
@@ -178,9 +179,8 @@ def _check_arrays(file: str, arrays: dict[str, np.ndarray]) -> list[Problem]:
 
     for section, prefix in (("nodes", "node"), ("vessels", "vessel"), ("beds", "bed")):
         ids = arrays[f"{prefix}_id"]
-        if len(set(ids.tolist())) != len(ids):
-            values, counts = np.unique(ids, return_counts=True)
-            dup = values[counts > 1][:MAX_NAMED].tolist()
+        dup = duplicated(ids)
+        if dup:
             problems.append(Problem(file, 0, 0, section, "duplicate ids " + ", ".join(map(repr, dup)),
                                     "give each item its own id"))
     v_ids, b_ids = arrays["vessel_id"], arrays["bed_id"]
@@ -207,6 +207,41 @@ def _check_arrays(file: str, arrays: dict[str, np.ndarray]) -> list[Problem]:
     touched[to[ok]] = True
     report("nodes", np.flatnonzero(~touched), "no vessel joins this node", arrays["node_id"])
     return problems
+
+
+def duplicated(ids: np.ndarray) -> list[str]:
+    """Ids that occur more than once (up to five), by a vectorised 64-bit hash of each id.
+
+    Ids whose hashes collide are compared exactly, so the answer is exact;
+    at 10^6 ids this takes a fraction of the time of a Python set.
+    """
+    ids = np.asarray(ids)
+    if len(ids) < 2:
+        return []
+    if ids.dtype.kind not in "SU":
+        ids = ids.astype(str)
+    width = ids.dtype.itemsize
+    words = -(-width // 8)
+    raw = np.zeros((len(ids), words * 8), dtype=np.uint8)
+    raw[:, :width] = np.ascontiguousarray(ids).view(np.uint8).reshape(len(ids), width)
+    lanes = raw.view(np.uint64)
+    h = np.full(len(ids), 0xCBF29CE484222325, dtype=np.uint64)
+    with np.errstate(over="ignore"):
+        for k in range(words):
+            h = (h ^ lanes[:, k]) * np.uint64(0x100000001B3)
+            h ^= h >> np.uint64(29)
+    order = np.argsort(h, kind="stable")
+    sorted_h = h[order]
+    same = np.flatnonzero(sorted_h[1:] == sorted_h[:-1])
+    if not len(same):
+        return []
+    suspects = ids[np.unique(np.concatenate([order[same], order[same + 1]]))].tolist()
+    seen, dup = set(), []
+    for x in suspects:
+        if x in seen and x not in dup:
+            dup.append(x)
+        seen.add(x)
+    return dup[:MAX_NAMED]
 
 
 def network_document(network: Network) -> dict:

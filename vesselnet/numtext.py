@@ -65,7 +65,7 @@ def significant_bytes(values, digits: int = 10) -> np.ndarray:
     """
     v = np.asarray(values, dtype=float).reshape(-1)
     n = len(v)
-    out = np.zeros(n, dtype=f"S{digits + 10}")
+    out = np.zeros(n, dtype=f"S{max(digits + 10, 20)}")
     a = np.abs(v)
     zero = a == 0
     out[zero] = np.where(np.signbit(v[zero]), b"-0.0", b"0.0")
@@ -107,9 +107,11 @@ def _digit_chars(m: np.ndarray, digits: int) -> np.ndarray:
         _TABLE.append(np.stack([(k // 10 ** p) % 10 + 48 for p in range(4, -1, -1)],
                                axis=1).astype(np.uint8))
     chunks = []
+    m = m.astype(float)                       # exact below 2^53; float division is quicker
     for _ in range(-(-digits // 5)):
-        m, rest = np.divmod(m, 100000)
-        chunks.append(_TABLE[0][rest])
+        high = np.floor(m / 100000.0)
+        chunks.append(_TABLE[0][(m - high * 100000.0).astype(np.int32)])
+        m = high
     return np.concatenate(chunks[::-1], axis=1)[:, -digits:]
 
 
@@ -145,7 +147,9 @@ def _layout(mantissa: np.ndarray, e: np.ndarray, negative: np.ndarray, digits: i
     template of character sources; each group is one gather.
     """
     n = len(mantissa)
-    width = digits + 10
+    width = max(digits + 10, 20)
+    if not n:
+        return np.zeros(0, dtype=f"S{width}")
     chars = np.zeros((n, digits + _NUL + 1), dtype=np.uint8)
     chars[:, :digits] = _digit_chars(mantissa, digits)
     chars[:, digits + _DOT:digits + _EXP] = np.frombuffer(_CHARS, dtype=np.uint8)
@@ -173,33 +177,61 @@ def _layout(mantissa: np.ndarray, e: np.ndarray, negative: np.ndarray, digits: i
     return out.view(f"S{width}").reshape(-1)
 
 
-def join_rows(columns, sep: str = ",") -> str:
+def join_rows(columns, sep: str = ",", *, encoded: bool = False) -> str | bytes:
     """Rows of text columns joined by ``sep``, one line each, every line ending in a newline.
 
     Parameters
     ----------
-    columns : sequence of ndarray of str or bytes (UTF-8), each shape (n,)
+    columns : sequence of ndarray of str or bytes (UTF-8), or lists of str, each of length n
+
+    encoded : bool
+        Return the UTF-8 bytes instead of text.
 
     Returns
     -------
-    str
+    str or bytes
+
+    Notes
+    -----
+    The cells of a block of rows are laid side by side as fixed-width bytes
+    (padded with zero bytes), with the separators and newlines as columns of
+    their own; dropping the zero bytes leaves the text.  Cells never contain
+    a zero byte (text with one is written through Python instead).
     """
-    columns = [_as_bytes(c) for c in columns]
+    columns = [_narrow(as_bytes(c)) for c in columns]
     n = len(columns[0]) if columns else 0
-    separator = sep.encode()
+    separator = np.frombuffer(sep.encode(), dtype=np.uint8)
+    newline = np.frombuffer(b"\n", dtype=np.uint8)
     parts = []
     for start in range(0, n, _ROWS_PER_CHUNK):
         stop = min(start + _ROWS_PER_CHUNK, n)
-        line = columns[0][start:stop]
-        for c in columns[1:]:
-            line = np.strings.add(np.strings.add(line, separator), c[start:stop])
-        parts.append(b"\n".join(line.tolist()))
-        parts.append(b"\n")
-    return b"".join(parts).decode("utf-8")
+        pieces = []
+        for k, c in enumerate(columns):
+            block = c[start:stop]
+            width = block.dtype.itemsize
+            pieces.append(np.ascontiguousarray(block).view(np.uint8).reshape(stop - start, width))
+            mark = separator if k < len(columns) - 1 else newline
+            pieces.append(np.broadcast_to(mark, (stop - start, len(mark))))
+        flat = np.concatenate(pieces, axis=1).reshape(-1)
+        parts.append(flat[flat != 0].tobytes())
+    out = b"".join(parts)
+    return out if encoded else out.decode("utf-8")
 
 
-def _as_bytes(column) -> np.ndarray:
-    """A text column (array or list) as a bytes array (UTF-8)."""
+def _narrow(column: np.ndarray) -> np.ndarray:
+    """The column at the width of its longest cell (less to copy when joining)."""
+    if not len(column):
+        return column
+    width = int(np.strings.str_len(column).max())
+    return column if width >= column.dtype.itemsize else column.astype(f"S{max(width, 1)}")
+
+
+def as_bytes(column) -> np.ndarray:
+    """A text column (array or list of str, or bytes array) as a bytes array (UTF-8).
+
+    >>> as_bytes(["a", "é"]).tolist()
+    [b'a', b'\\xc3\\xa9']
+    """
     if isinstance(column, np.ndarray) and column.dtype.kind == "S":
         return column
     items = column.tolist() if isinstance(column, np.ndarray) else list(column)
@@ -210,6 +242,8 @@ def _as_bytes(column) -> np.ndarray:
     except TypeError:
         items = list(map(str, items))
         joined = "\n".join(items)
+    if "\x00" in joined:
+        raise ValueError("join_rows: a text cell holds a zero byte; write it through the csv module")
     if joined.count("\n") == len(items) - 1:
         return np.array(joined.encode("utf-8").split(b"\n"), dtype="S")
     return np.array([x.encode("utf-8") for x in items], dtype="S")

@@ -169,8 +169,8 @@ def _dump(value, depth: int) -> str:
     return json.dumps(value, ensure_ascii=False, allow_nan=False)
 
 
-def atomic_write(path, text: str) -> None:
-    """Write ``text`` to ``path`` through a temporary file and a rename.
+def atomic_write(path, text: str | bytes) -> None:
+    """Write ``text`` (or UTF-8 ``bytes``) to ``path`` through a temporary file and a rename.
 
     An error or an interrupt leaves either the old file or none, never a
     partial one.
@@ -178,8 +178,12 @@ def atomic_write(path, text: str) -> None:
     path = Path(path)
     handle, tmp = tempfile.mkstemp(dir=path.parent or ".", prefix=f".{path.name}.", suffix=".tmp")
     try:
-        with os.fdopen(handle, "w", encoding="utf-8", newline="") as out:
-            out.write(text)
+        if isinstance(text, bytes):
+            with os.fdopen(handle, "wb") as out:
+                out.write(text)
+        else:
+            with os.fdopen(handle, "w", encoding="utf-8", newline="") as out:
+                out.write(text)
         os.replace(tmp, path)
     except BaseException:
         try:
@@ -203,9 +207,14 @@ def csv_text(ids, text_columns: dict[str, list], columns: dict[str, np.ndarray],
     """One CSV table: ``id`` first, then text columns, then numbers with ``name[unit]`` headers.
 
     Built a column at a time (:mod:`vesselnet.numtext`), so 10^6 rows take
-    about a second; cells are those of ``csv.writer`` with :func:`number`
-    and :func:`spreadsheet_safe` applied.
+    seconds, not minutes; cells are those of ``csv.writer`` with
+    :func:`number` and :func:`spreadsheet_safe` applied.  Text columns may be
+    lists of str or numpy arrays of str or UTF-8 bytes.
     """
+    return _csv_bytes(ids, text_columns, columns, units).decode("utf-8")
+
+
+def _csv_bytes(ids, text_columns, columns, units) -> bytes:
     from .numtext import join_rows
 
     buffer = io.StringIO()
@@ -215,20 +224,36 @@ def csv_text(ids, text_columns: dict[str, list], columns: dict[str, np.ndarray],
     writer.writerow(header)
     cells = [_text_cells(ids)] + [_text_cells(c) for c in text_columns.values()]
     cells += [_number_cells(values) for values in columns.values()]
+    head = buffer.getvalue().encode("utf-8")
     if not len(cells[0]):
-        return buffer.getvalue()
-    return buffer.getvalue() + join_rows(cells)
+        return head
+    return head + join_rows(cells, encoded=True)
 
 
-def _text_cells(values) -> list[str]:
+_RISKY_START = (b"=", b"+", b"-", b"@", b"\t", b"\r")
+_NEEDS_QUOTES = (b",", b'"', b"\r", b"\n")
+
+
+def _text_cells(values):
     """Text cells made spreadsheet-safe and quoted as ``csv.writer`` quotes them."""
-    values = values.tolist() if isinstance(values, np.ndarray) else list(values)
-    if not all(map(str.__instancecheck__, values)):
-        values = list(map(str, values))
-    joined = "\x00".join(values)
-    if any(c in joined for c in '=+-@\t\r,"\n'):
-        values = [_quoted(spreadsheet_safe(x)) for x in values]
-    return values
+    from .numtext import as_bytes
+
+    cells = as_bytes(values)
+    if not len(cells):
+        return cells
+    risky = np.zeros(len(cells), dtype=bool)
+    for prefix in _RISKY_START:
+        risky |= np.strings.startswith(cells, prefix)
+    for char in _NEEDS_QUOTES:
+        risky |= np.strings.find(cells, char) >= 0
+    rows = np.flatnonzero(risky)
+    if len(rows):
+        fixed = [_quoted(spreadsheet_safe(x.decode("utf-8"))).encode("utf-8")
+                 for x in cells[rows].tolist()]
+        width = max(cells.dtype.itemsize, max(map(len, fixed)))
+        cells = cells.astype(f"S{width}")
+        cells[rows] = fixed
+    return cells
 
 
 def _quoted(cell: str) -> str:
@@ -255,24 +280,28 @@ def _number_cells(values):
 
 def write_tables(result: SteadyResult, directory) -> list[Path]:
     """Write ``nodes.csv``, ``vessels.csv`` and ``beds.csv`` (SPEC section 5) into ``directory``."""
+    from .numtext import as_bytes
+
     directory = Path(directory)
     directory.mkdir(parents=True, exist_ok=True)
     kinds = {name: kind for name, _, kind in NODE_COLUMNS + VESSEL_COLUMNS + BED_COLUMNS}
     kinds.update({k.removesuffix("_m3_s"): v for k, v in EXTRA_KINDS.items()})
     units = {name: DISPLAY_UNITS[kind] for name, kind in kinds.items() if kind}
+    net = result.network
+    node_ids = as_bytes(net.nodes.ids)        # once: from, to and node are gathers of it
     nodes = result.node_table()
-    vessels = result.vessel_table()
     beds = result.bed_table()
-    texts = {
-        "nodes.csv": csv_text(nodes["id"], {}, _converted(nodes, NODE_COLUMNS), units),
-        "vessels.csv": csv_text(vessels["id"], {"from": list(vessels["from"]), "to": list(vessels["to"])},
-                                vessel_columns(result), units),
-        "beds.csv": csv_text(beds["id"], {"node": list(beds["node"])}, _converted(beds, BED_COLUMNS),
-                             units),
+    tables = {
+        "nodes.csv": (node_ids, {}, _converted(nodes, NODE_COLUMNS)),
+        "vessels.csv": (as_bytes(net.vessels.ids), {"from": node_ids[net.vessels.from_node],
+                                                     "to": node_ids[net.vessels.to_node]},
+                        vessel_columns(result)),
+        "beds.csv": (as_bytes(net.beds.ids), {"node": node_ids[net.beds.node]},
+                     _converted(beds, BED_COLUMNS)),
     }
     paths = []
-    for name, text in texts.items():
-        atomic_write(directory / name, text)
+    for name, (ids, text, numbers) in tables.items():
+        atomic_write(directory / name, _csv_bytes(ids, text, numbers, units))
         paths.append(directory / name)
     return paths
 
