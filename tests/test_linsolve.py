@@ -262,3 +262,24 @@ def test_solve_sparse_keeps_its_contract():
 def test_unknown_method_is_refused():
     with pytest.raises(SolveError, match="unknown method"):
         Factorization("gauss")
+
+
+@pytest.mark.parametrize("topology, expected", [("long", "amg"), ("local", "superlu"),
+                                                ("tree", "tree")])
+def test_auto_without_cholmod(monkeypatch, topology, expected):
+    """Without scikit-sparse, auto takes AMG only for large networks with long-range loops."""
+    import vesselnet.linsolve as linsolve
+
+    if expected == "amg" and not amg_available():
+        pytest.skip("pyamg not installed")
+    monkeypatch.setattr(linsolve, "cholmod_available", lambda: False)
+    monkeypatch.setattr(linsolve, "AMG_AUTO_SIZE", 100)
+    net = synthetic_network(3000, topology, seed=4711)
+    A, rhs = nodal_system(net, 8)
+    f = Factorization()
+    x = f.solve(A, rhs)
+    assert f.method == expected
+    if expected == "superlu":
+        assert "scikit-sparse is not installed" in f.reason
+    ref = dense_reference(A, rhs)
+    assert np.abs(x - ref).max() <= 1e-9 * np.abs(ref).max()
