@@ -312,11 +312,13 @@ class Factorization:
             if "perm" not in self._state:
                 name, perm = self._symmetric_ordering(s)
                 if perm is None:
-                    name = "MMD_AT_PLUS_A, computed once"
+                    # the first factorisation finds the ordering; later ones reuse it
+                    self.ordering = "MMD_AT_PLUS_A, computed once"
                     A = sp.csc_matrix((scaled, s.indices, s.indptr), shape=(s.n, s.n))
-                    perm = spla.splu(A, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0,
-                                     options={"SymmetricMode": True}).perm_c
-                    perm = np.argsort(perm)
+                    lu = spla.splu(A, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0,
+                                   options={"SymmetricMode": True})
+                    self._state["perm"] = (self.ordering, np.argsort(lu.perm_c).astype(np.int64))
+                    return d * lu.solve(d * rhs)
                 self._state["perm"] = (name, np.asarray(perm, dtype=np.int64))
             name, perm = self._state["perm"]
             self.ordering = name
