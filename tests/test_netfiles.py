@@ -186,3 +186,18 @@ def test_convert_and_solve_from_the_command_line(forms, tmp_path):
     assert failed.returncode == 1 and "without loops" in failed.stderr
     bad = _cli("convert", str(forms["csv"]), str(tmp_path / "c.txt"), cwd=tmp_path)
     assert bad.returncode == 2 and "use an output name ending in .npz or .json" in bad.stderr
+
+
+def test_result_arrays_hold_the_tables(forms, tmp_path):
+    """write_arrays: the same numbers as the result tables, ids and node rows included."""
+    from vesselnet.writers import write_arrays
+
+    result = solve(load_network(forms["npz"]))
+    with np.load(write_arrays(result, tmp_path / "r.npz")) as data:
+        np.testing.assert_array_equal(data["vessel_flow_m3_s"], result.vessel_flow_m3_s)
+        np.testing.assert_array_equal(data["node_pressure_pa"], result.pressure_pa)
+        np.testing.assert_array_equal(data["bed_share"], result.bed_share)
+        assert tuple(data["vessel_id"].tolist()) == result.network.vessels.ids
+        ids = data["node_id"]
+        assert ids[data["vessel_from_node"]].tolist() == result.vessel_table()["from"].tolist()
+        assert json.loads(str(data["checks"]))["solver"] == result.solver

@@ -52,10 +52,10 @@ class NodalPattern:
         row_of[self.free_nodes] = np.arange(self.n_free)
         self.row_of = row_of
         ra, rb = row_of[self.a], row_of[self.b]
-        # stamp order: aa, ab, ba, bb
-        rows = np.concatenate([ra, ra, rb, rb])
-        cols = np.concatenate([ra, rb, ra, rb])
-        keep = (rows >= 0) & (cols >= 0)
+        # stamp order: aa, ab, ba, bb; a stamp is kept when its row and column are free
+        free_a, free_b = ra >= 0, rb >= 0
+        both = free_a & free_b
+        keep = np.concatenate([free_a, both, both, free_b])
         self._keep = keep
         slot, self._indices, self._indptr = _structure(self.n_free, ra, rb)
         self._slot = slot[keep]

@@ -113,6 +113,8 @@ def read_npz(path) -> Network:
     try:
         with np.load(path, allow_pickle=False) as data:
             arrays = {k: data[k] for k in data.files}
+        for value in arrays.values():
+            value.flags.writeable = False     # ours alone: the model need not copy them
         header = json.loads(str(arrays["header"]))
         if header.get("format") != NPZ_FORMAT:
             raise KeyError("header")
@@ -220,17 +222,19 @@ def duplicated(ids: np.ndarray) -> list[str]:
         return []
     if ids.dtype.kind not in "SU":
         ids = ids.astype(str)
-    width = ids.dtype.itemsize
-    words = -(-width // 8)
-    raw = np.zeros((len(ids), words * 8), dtype=np.uint8)
-    raw[:, :width] = np.ascontiguousarray(ids).view(np.uint8).reshape(len(ids), width)
-    lanes = raw.view(np.uint64)
+    if ids.dtype.kind == "S":
+        ids = ids.astype(f"U{ids.dtype.itemsize}")
+    lanes = np.ascontiguousarray(ids).view(np.uint32).reshape(len(ids), -1)   # one lane a char
     h = np.full(len(ids), 0xCBF29CE484222325, dtype=np.uint64)
     with np.errstate(over="ignore"):
-        for k in range(words):
-            h = (h ^ lanes[:, k]) * np.uint64(0x100000001B3)
+        for k in range(lanes.shape[1]):
+            h ^= lanes[:, k]
+            h *= np.uint64(0x100000001B3)
             h ^= h >> np.uint64(29)
-    order = np.argsort(h, kind="stable")
+    # ids whose hash shares a bucket with another: few; compare only those
+    bucket = (h % np.uint64(4 * len(ids))).astype(np.int64)
+    crowded = np.flatnonzero(np.bincount(bucket, minlength=4 * len(ids))[bucket] > 1)
+    order = crowded[np.argsort(h[crowded], kind="stable")]
     sorted_h = h[order]
     same = np.flatnonzero(sorted_h[1:] == sorted_h[:-1])
     if not len(same):

@@ -307,20 +307,28 @@ def write_tables(result: SteadyResult, directory) -> list[Path]:
 
 
 def write_arrays(result: SteadyResult, path) -> Path:
-    """Write the node, vessel and bed tables of ``result`` (SI) into one ``.npz`` file.
+    """Write every per-node, per-vessel and per-bed result (SI) into one ``.npz`` file.
 
-    The binary counterpart of :func:`write_tables` for large networks: keys
-    ``<table>_<column>`` (``vessel_flow_m3_s``, ``node_pressure_pa``, ``bed_share``,
-    ids as ``vessel_id`` ...), plus ``checks`` (the JSON checks map as text).
-    Read back with ``numpy.load(path)``.
+    The binary counterpart of :func:`write_tables` for large networks.  Keys
+    are ``<table>_<column>`` of :meth:`~vesselnet.result.SteadyResult.node_table`,
+    ``vessel_table`` and ``bed_table`` (``vessel_flow_m3_s``, ``node_pressure_pa``,
+    ``bed_share`` ...), with ids as ``node_id``, ``vessel_id``, ``bed_id`` and
+    node references as rows of ``node_id`` (``vessel_from_node``,
+    ``vessel_to_node``, ``bed_node``); ``checks`` holds the JSON checks map as
+    text.  Read back with ``numpy.load(path)``.
     """
     path = Path(path)
-    arrays = {}
+    net = result.network
+    arrays = {"node_id": np.array(net.nodes.ids, dtype=str),
+              "vessel_id": np.array(net.vessels.ids, dtype=str),
+              "bed_id": np.array(net.beds.ids, dtype=str),
+              "vessel_from_node": net.vessels.from_node, "vessel_to_node": net.vessels.to_node,
+              "bed_node": net.beds.node}
     for prefix, table in (("node", result.node_table()), ("vessel", result.vessel_table()),
                           ("bed", result.bed_table())):
         for key, values in table.items():
-            values = np.asarray(values)
-            arrays[f"{prefix}_{key}"] = values.astype(str) if values.dtype == object else values
+            if key not in ("id", "from", "to", "node"):
+                arrays[f"{prefix}_{key}"] = np.asarray(values)
     arrays["checks"] = np.array(json.dumps(checks_json(result)))
     tmp = path.with_name(f".{path.name}.tmp.npz")
     try:
