@@ -154,6 +154,7 @@ def read_table(path, section: str, units: dict[str, str], *, shown_as: str | Non
         if values is None:
             continue
         values = values * scale
+        values.flags.writeable = False       # a fresh column: the model need not copy it
         bad = {"positive": ~(np.isfinite(values) & (values > 0)),
                "any": np.isinf(values),
                "fraction": ~((values >= 0) & (values <= 1)) & ~np.isnan(values)}[rule]
