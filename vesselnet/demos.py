@@ -11,7 +11,7 @@ from __future__ import annotations
 from importlib import resources
 from pathlib import Path
 
-DEMOS = ("whole_body", "leg", "collateral")
+DEMOS = ("whole_body", "leg", "collateral", "venous_return")
 """The demo networks `vesselnet demo` solves, in order."""
 
 
@@ -20,9 +20,16 @@ def demo_folder() -> Path:
     return Path(str(resources.files("vesselnet.networks")))
 
 
-def demo_names() -> tuple[str, ...]:
-    """Names of every bundled network file (without ``.yaml``), sorted."""
-    return tuple(sorted(p.stem for p in demo_folder().glob("*.yaml")))
+def demo_names(kind: str | None = "network") -> tuple[str, ...]:
+    """Names of the bundled files (without ``.yaml``) of ``kind``, sorted.
+
+    ``kind`` is ``network`` (the default), ``scenario`` or ``plan``
+    (:mod:`vesselnet.filekind`), or None for every file.
+    """
+    from .filekind import file_kind_of
+
+    return tuple(sorted(p.stem for p in demo_folder().glob("*.yaml")
+                        if kind is None or file_kind_of(p) == kind))
 
 
 def demo_path(name: str) -> Path:

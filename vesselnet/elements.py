@@ -83,3 +83,17 @@ class ElementGroup:
     def pressure_drop(self, pressure_pa: np.ndarray) -> np.ndarray:
         p_b = np.where(self.b >= 0, pressure_pa[np.maximum(self.b, 0)], self.ground_pa)
         return pressure_pa[self.a] - p_b
+
+    def law_pressure_drop(self, pressure_pa: np.ndarray, q: np.ndarray) -> np.ndarray:
+        """The law solved for the pressure drop at flows ``q``, for residual checks.
+
+        A law whose drop also depends on the pressure at ``a`` (a distensible
+        tube; ``inlet_dependent = True``) gets it as a second argument; a law
+        that is not invertible in q (an autoregulating bed holds its flow over
+        a range of drops; ``drop_dependent = True``) gets the actual drop.
+        """
+        if getattr(self.law, "inlet_dependent", False):
+            return self.law.pressure_drop(q, pressure_pa[self.a])
+        if getattr(self.law, "drop_dependent", False):
+            return self.law.pressure_drop(q, self.pressure_drop(pressure_pa))
+        return self.law.pressure_drop(q)

@@ -182,7 +182,10 @@ class Beds(_Columns):
     series (gut draining into the portal vein), the network node
     ``outflow_node`` (then ``outflow_pressure_pa`` is NaN).  ``share`` is an
     optional target fraction of total inflow; the ``windkessel_*`` columns are
-    for pulsatile work.
+    for pulsatile work.  A bed autoregulates where ``min_resistance_pa_s_m3``
+    (its maximal dilation) is given: it holds ``target_flow_m3_s`` (NaN: the
+    flow it has at ``resistance_pa_s_m3``, taken from a baseline solve) while
+    it can (see :mod:`vesselnet.autoregulation`).
     """
 
     ids: tuple[str, ...]
@@ -194,6 +197,8 @@ class Beds(_Columns):
     windkessel_proximal_pa_s_m3: np.ndarray
     windkessel_compliance_m3_pa: np.ndarray
     line: np.ndarray
+    target_flow_m3_s: np.ndarray
+    min_resistance_pa_s_m3: np.ndarray
 
 
 @dataclass(frozen=True, eq=False)
@@ -234,7 +239,8 @@ class Network:
         beds : mapping of column name to sequence, optional
             ``id``, ``node``, ``resistance_pa_s_m3``, optionally
             ``outflow_pressure_pa`` (NaN: ``venous_pressure_pa``),
-            ``outflow_node`` (a node id or None), ``share``, ``windkessel_*``, ``line``.
+            ``outflow_node`` (a node id or None), ``share``, ``windkessel_*``, ``line``,
+            ``target_flow_m3_s`` and ``min_resistance_pa_s_m3`` (autoregulation).
         tags : mapping of tag to vessel rows, optional
         inflow_waveforms : mapping of node id to waveform description, optional
 
@@ -327,7 +333,8 @@ class Network:
             outflow_node=outflow_node, share=bed_col("share", NAN),
             windkessel_proximal_pa_s_m3=bed_col("windkessel_proximal_pa_s_m3", NAN),
             windkessel_compliance_m3_pa=bed_col("windkessel_compliance_m3_pa", NAN),
-            line=bed_col("line", 0, np.int64))
+            line=bed_col("line", 0, np.int64), target_flow_m3_s=bed_col("target_flow_m3_s", NAN),
+            min_resistance_pa_s_m3=bed_col("min_resistance_pa_s_m3", NAN))
         return cls(name=name, nodes=node_table, vessels=vessel_table, beds=bed_table,
                    blood=blood, venous_pressure_pa=venous_pressure_pa, source=source)
 

@@ -24,7 +24,7 @@ from pathlib import Path
 
 import numpy as np
 
-from . import csvtables, yamlread
+from . import csvtables, waveformtable, yamlread
 from .errors import NetworkSpecError, Problem, UnitError
 from .fields import FieldReader, near_miss
 from .model import NAN, Blood, Network
@@ -33,12 +33,13 @@ from .units import DEFAULT_UNITS, MMHG_PA, factor
 
 FORMAT_VERSION = 1
 TOP_KEYS = ("vesselnet", "name", "description", "units", "blood", "venous_pressure", "nodes",
-            "vessels", "beds", "vessels_table", "beds_table", "nodes_table")
+            "vessels", "beds", "vessels_table", "beds_table", "nodes_table", "distensible")
 VESSEL_KEYS = ("id", "from", "to", "length", "radius", "diameter", "wall", "tags", "stenosis")
 WALL_KEYS = ("thickness", "modulus", "poisson", "distensible", "external_pressure")
 STENOSIS_KEYS = ("reduction", "length", "at")
 NODE_KEYS = ("pressure", "inflow", "position", "target_pressure")
-BED_KEYS = ("id", "node", "resistance", "outflow_pressure", "outflow_node", "share", "windkessel")
+BED_KEYS = ("id", "node", "resistance", "outflow_pressure", "outflow_node", "share", "windkessel",
+            "autoregulation")
 BLOOD_KEYS = ("viscosity", "density", "hematocrit", "separation")
 VISCOSITY_LAWS = ("constant", "pries-vitro", "pries-vivo")
 SEPARATION_LAWS = ("none", "pries-1990", "pries-2005")
@@ -95,7 +96,7 @@ def read_network(doc, file: str, base_dir: Path) -> Network:
     venous = fr.quantity(doc, "venous_pressure", "pressure", "venous_pressure",
                          default=5 * MMHG_PA)
     vessels, tags = read_vessels(fr, doc)
-    nodes, waveforms = read_nodes(fr, doc)
+    nodes, waveforms = read_nodes(fr, doc, base_dir)
     beds = read_beds(fr, doc)
     for key, into in (("vessels_table", vessels), ("nodes_table", nodes), ("beds_table", beds)):
         if key in doc:
@@ -105,6 +106,7 @@ def read_network(doc, file: str, base_dir: Path) -> Network:
                                              shown_as=path)
                 fr.problems.extend(table.problems)
                 _append(into, table.columns, table.tags, tags)
+    read_distensible(fr, doc, vessels, tags)
     if not fr.problems and not vessels["id"]:
         fr.add((doc.line, doc.column), "vessels", "the network has no vessels",
                "list at least one vessel under 'vessels:'")
@@ -286,7 +288,7 @@ def read_tags(fr: FieldReader, v, label: str) -> list[str]:
     return [str(t) for t in tags]
 
 
-def read_nodes(fr: FieldReader, doc) -> tuple[dict[str, list], dict[str, dict]]:
+def read_nodes(fr: FieldReader, doc, base_dir=Path(".")) -> tuple[dict[str, list], dict[str, dict]]:
     """The ``nodes:`` mapping as SI columns, and pulsatile inflow waveforms by node id."""
     cols = {k: [] for k in ("id", "pressure_pa", "inflow_m3_s", "position_m",
                             "target_pressure_pa", "line")}
@@ -307,7 +309,7 @@ def read_nodes(fr: FieldReader, doc) -> tuple[dict[str, list], dict[str, dict]]:
         cols["pressure_pa"].append(pressure)
         inflow = props.get("inflow")
         if isinstance(inflow, dict):
-            wave = read_waveform(fr, inflow, label)
+            wave = read_waveform(fr, inflow, label, base_dir)
             if wave:
                 waveforms[str(node_id)] = wave
             cols["inflow_m3_s"].append(wave.get("mean_m3_s", NAN) if wave else NAN)
@@ -343,9 +345,20 @@ def _index_map(seq, k):
     return m
 
 
-def read_waveform(fr: FieldReader, wave, label: str) -> dict:
+def read_waveform(fr: FieldReader, wave, label: str, base_dir=Path(".")) -> dict:
     """A pulsatile inflow (SPEC section 7) in SI, with its ``mean_m3_s``."""
     label = label + " inflow"
+    if "csv" in wave:   # {csv: file.csv}: a table of one cycle (vesselnet.waveformtable)
+        fr.allow(wave, ("csv",), label)
+        path = fr.text(wave, "csv", label, required=True)
+        if not path:
+            return {}
+        table = waveformtable.read_waveform_table(base_dir / path, "flow", fr.units, shown_as=path)
+        fr.problems.extend(table.problems)
+        if table.problems:
+            return {}
+        return {"period_s": table.period_s, "samples_m3_s": tuple(table.samples.tolist()),
+                "mean_m3_s": float(np.mean(table.samples)), "csv": path}
     if "samples" in wave:
         fr.allow(wave, ("period", "samples"), label)
         period = fr.quantity(wave, "period", "time", label, required=True, positive=True)
@@ -371,7 +384,8 @@ def read_beds(fr: FieldReader, doc) -> dict[str, list]:
     """The ``beds:`` list as SI columns."""
     cols = {k: [] for k in ("id", "node", "resistance_pa_s_m3", "outflow_pressure_pa",
                             "outflow_node", "share", "windkessel_proximal_pa_s_m3",
-                            "windkessel_compliance_m3_pa", "line")}
+                            "windkessel_compliance_m3_pa", "line", "target_flow_m3_s",
+                            "min_resistance_pa_s_m3")}
     items = fr.sequence(doc, "beds", "beds")
     for i, b in enumerate(items or ()):
         label = f"beds[{i}]"
@@ -405,7 +419,46 @@ def read_beds(fr: FieldReader, doc) -> dict[str, list]:
             fr.quantity(wk, "compliance", "compliance", label + " windkessel", required=bool(wk),
                         positive=True))
         cols["line"].append(b.line)
+        target, minimum = read_autoregulation(fr, b, label, resistance)
+        cols["target_flow_m3_s"].append(target)
+        cols["min_resistance_pa_s_m3"].append(minimum)
     return cols
+
+
+def read_autoregulation(fr: FieldReader, b, label: str, resistance: float) -> tuple[float, float]:
+    """A bed's ``autoregulation: {min_resistance: R | reserve: x, target_flow: Q}`` in SI.
+
+    Returns (target flow, minimum resistance), NaN when absent; ``reserve``
+    is the resting over the minimum resistance (>= 1).
+    """
+    auto = fr.mapping(b, "autoregulation", label)
+    if auto is None:
+        return NAN, NAN
+    item = label + " autoregulation"
+    fr.allow(auto, ("min_resistance", "reserve", "target_flow"), item)
+    target = fr.quantity(auto, "target_flow", "flow", item, positive=True)
+    given = [k for k in ("min_resistance", "reserve") if k in auto]
+    if len(given) != 1:
+        fr.add(b.where("autoregulation"), item,
+               "give exactly one of 'min_resistance' and 'reserve'" if given else
+               "missing key 'min_resistance'",
+               "" if given else "add 'min_resistance:' (the fully dilated bed's resistance) or "
+               "'reserve:' (resting over minimum resistance, for example 4)")
+        return target, NAN
+    if given[0] == "reserve":
+        reserve = fr.quantity(auto, "reserve", "fraction", item, positive=True)
+        if reserve < 1:
+            fr.add(auto.where("reserve"), item, f"reserve must be at least 1, got {reserve:g}",
+                   "the fully dilated bed cannot resist more than the resting one")
+            return target, NAN
+        return target, resistance / reserve
+    minimum = fr.quantity(auto, "min_resistance", "resistance", item, positive=True)
+    if minimum > resistance:
+        fr.add(auto.where("min_resistance"), item,
+               "min_resistance is above the bed's resting resistance",
+               "the fully dilated bed resists less: lower it, or use 'reserve:'")
+        return target, NAN
+    return target, minimum
 
 
 def _append(into: dict[str, list], columns: dict[str, object], table_tags, tags) -> None:
@@ -475,3 +528,51 @@ def _duplicates(fr: FieldReader, cols, section: str) -> None:
 
 def _name(fr: FieldReader, doc, file: str) -> str:
     return fr.text(doc, "name", "name", default=Path(file).stem) or Path(file).stem
+
+
+def read_distensible(fr: FieldReader, doc, vessels, tags) -> None:
+    """Top-level ``distensible: {tags: [..] | all: true, external_pressure: P}`` (opt-in by tag).
+
+    Marks the selected vessels (YAML and table rows) distensible, except
+    those whose own wall says ``distensible: false``; ``external_pressure``
+    applies to the selected vessels whose wall gives none.  Every selected
+    vessel needs a wall thickness and modulus.
+    """
+    spec = fr.mapping(doc, "distensible", "distensible")
+    if spec is None:
+        return
+    item = "distensible"
+    fr.allow(spec, ("tags", "all", "external_pressure"), item)
+    n = len(vessels["id"])
+    if ("tags" in spec) == ("all" in spec):
+        fr.add(doc.where("distensible"), item, "give exactly one of 'tags' and 'all'",
+               "'tags: [venous]' selects tagged vessels, 'all: true' every vessel")
+        return
+    selected = np.zeros(n, dtype=bool)
+    if "all" in spec:
+        selected[:] = fr.flag(spec, "all", item)
+    else:
+        names = read_tags(fr, spec, item)
+        for name in names:
+            if name in tags:
+                selected[tags[name]] = True
+            else:
+                fr.add(spec.where("tags"), item, f"no vessel carries the tag '{name}'",
+                       near_miss(name, tags) or "tag the vessels or fix the name")
+    own = [v.get("wall") if isinstance(v, dict) and isinstance(v.get("wall"), dict) else {}
+           for v in doc.get("vessels") or () if isinstance(v, dict)]
+    own += [{}] * (n - len(own))
+    selected &= np.array([w.get("distensible", True) is not False for w in own], dtype=bool)
+    external = fr.quantity(spec, "external_pressure", "pressure", item)
+    lacking = [vessels["id"][i] for i in np.flatnonzero(selected)
+               if not (vessels["wall_thickness_m"][i] > 0 and vessels["wall_modulus_pa"][i] > 0)]
+    if lacking:
+        shown = ", ".join(f"'{x}'" for x in lacking[:5]) + (" ..." if len(lacking) > 5 else "")
+        fr.add(doc.where("distensible"), item,
+               f"{len(lacking)} selected vessel(s) lack a wall thickness or modulus: {shown}",
+               "give them 'wall: {thickness: , modulus: }' (or table columns wall_thickness, "
+               "wall_modulus), or narrow the selection")
+    for i in np.flatnonzero(selected):
+        vessels["distensible"][i] = True
+        if not np.isnan(external) and "external_pressure" not in own[i]:
+            vessels["external_pressure_pa"][i] = external

@@ -93,9 +93,10 @@ class SteadyResult:
 
     @property
     def vessel_mean_radius_m(self) -> np.ndarray:
-        """Mean of the end radii (m): the radius velocity and shear are reported at."""
+        """Mean of the end radii, distended where wall mechanics ran (``vessel_extra``
+        ``lumen_radius_m``) (m): the radius velocity and shear are reported at."""
         v = self.network.vessels
-        return 0.5 * (v.radius_in_m + v.radius_out_m)
+        return self.vessel_extra.get("lumen_radius_m", 0.5 * (v.radius_in_m + v.radius_out_m))
 
     @property
     def vessel_mean_velocity_m_s(self) -> np.ndarray:

@@ -27,6 +27,7 @@ import dataclasses
 import numpy as np
 
 from .assembly import NodalPattern
+from .autoregulation import AutoregulatedLaw
 from .elements import ElementGroup, LinearLaw, QuadraticLaw
 from .errors import SolveError
 from .linsolve import Factorization
@@ -35,6 +36,8 @@ from .resistance import tapered_resistance
 from .result import SteadyResult, laminar_warnings
 from .stenosis import young_tsai_coefficients
 from .topology import connected_parts
+from .tubelaw import DistensibleLaw
+from .walls import distensible_group, rigid_groups, with_wall_outputs
 
 DEFAULT_TOLERANCE = 1e-10
 """Newton stops when the largest nodal imbalance is below this fraction of the total inflow."""
@@ -64,38 +67,97 @@ def element_groups(network: Network, viscosity_pa_s: np.ndarray, *,
     -------
     list of ElementGroup
         Open lesion-free vessels (linear), vessels with a lesion (quadratic:
-        the Young-Tsai lesion in series with the rest of the vessel) and beds
-        (linear, to their outflow pressure or outflow node).
+        the Young-Tsai lesion in series with the rest of the vessel),
+        distensible lesion-free vessels (square-root wall law, see
+        :mod:`vesselnet.walls`), fixed beds (linear, to their outflow
+        pressure or outflow node) and autoregulating beds with a target flow
+        (:mod:`vesselnet.autoregulation`).
 
     Notes
     -----
-    A lesion of length Ls on a vessel of length L replaces the fraction Ls/L
-    of the vessel's linear resistance by the lesion law; its unobstructed
-    diameter is the vessel's diameter at the lesion's position ``at``.
+    A lesion of length Ls replaces its stretch of the vessel's linear
+    resistance by the lesion law (see :func:`lesion_coefficients`).
+    Autoregulating beds whose target is still unresolved (NaN) are linear at
+    their resting resistance: in their own baseline they hold that flow.
     """
     v, beds = network.vessels, network.beds
     resistance = vessel_resistance(network, viscosity_pa_s) if resistance_pa_s_m3 is None \
         else np.asarray(resistance_pa_s_m3, dtype=float)
     open_ = ~v.occluded
     lesion = open_ & ~np.isnan(v.stenosis_reduction)
-    plain = np.flatnonzero(open_ & ~lesion)
+    distensible = open_ & ~lesion & v.distensible
+    plain = np.flatnonzero(open_ & ~lesion & ~distensible)
     no_ground = np.full(len(plain), np.nan)
     groups = [ElementGroup("vessel", plain, v.from_node[plain], v.to_node[plain], no_ground,
                            LinearLaw(1.0 / resistance[plain]))]
     rows = np.flatnonzero(lesion)
     if len(rows):
-        at = v.stenosis_at[rows]
-        d0 = 2.0 * (v.radius_in_m[rows] * (1 - at) + v.radius_out_m[rows] * at)
-        ds = d0 * (1.0 - v.stenosis_reduction[rows])
-        r_v, k_t = young_tsai_coefficients(d0, ds, v.stenosis_length_m[rows], viscosity_pa_s[rows],
-                                           network.blood.density_kg_m3)
-        rest = resistance[rows] * (1.0 - v.stenosis_length_m[rows] / v.length_m[rows])
+        r_v, k_t, upstream, downstream = lesion_coefficients(network, rows, viscosity_pa_s, resistance)
         groups.append(ElementGroup("vessel", rows, v.from_node[rows], v.to_node[rows],
-                                   np.full(len(rows), np.nan), QuadraticLaw(rest + r_v, k_t)))
-    bed_rows = np.arange(len(beds))
-    groups.append(ElementGroup("bed", bed_rows, beds.node, beds.outflow_node,
-                               beds.outflow_pressure_pa, LinearLaw(1.0 / beds.resistance_pa_s_m3)))
+                                   np.full(len(rows), np.nan),
+                                   QuadraticLaw(upstream + downstream + r_v, k_t)))
+    if distensible.any():
+        groups.append(distensible_group(network, np.flatnonzero(distensible), viscosity_pa_s,
+                                        resistance))
+    auto = np.isfinite(beds.min_resistance_pa_s_m3) & np.isfinite(beds.target_flow_m3_s)
+    bed_rows = np.flatnonzero(~auto)
+    groups.append(ElementGroup("bed", bed_rows, beds.node[bed_rows], beds.outflow_node[bed_rows],
+                               beds.outflow_pressure_pa[bed_rows],
+                               LinearLaw(1.0 / beds.resistance_pa_s_m3[bed_rows])))
+    auto_rows = np.flatnonzero(auto)
+    if len(auto_rows):
+        groups.append(ElementGroup("bed", auto_rows, beds.node[auto_rows], beds.outflow_node[auto_rows],
+                                   beds.outflow_pressure_pa[auto_rows],
+                                   AutoregulatedLaw(beds.target_flow_m3_s[auto_rows],
+                                                    beds.min_resistance_pa_s_m3[auto_rows])))
     return groups
+
+
+def lesion_coefficients(network: Network, rows: np.ndarray, viscosity_pa_s: np.ndarray,
+                        resistance_pa_s_m3: np.ndarray):
+    """Young-Tsai coefficients of the lesions on vessel ``rows`` and the healthy rest of each vessel.
+
+    Parameters
+    ----------
+    network : Network
+    rows : ndarray of int
+        Vessels with a lesion.
+    viscosity_pa_s, resistance_pa_s_m3 : ndarray, shape (n_vessels,)
+        Viscosity and linear (lesion-free) resistance of every vessel.
+
+    Returns
+    -------
+    r_v, k_t : ndarray
+        The lesion law dP = r_v Q + k_t Q|Q| (see :mod:`vesselnet.stenosis`).
+    upstream, downstream : ndarray
+        Linear resistance of the healthy vessel before and after the lesion (Pa*s/m^3).
+
+    Notes
+    -----
+    The lesion occupies [s, s + Ls] along the vessel, centred at ``at`` x L
+    and kept inside it: s = clip(at L - Ls/2, 0, L - Ls).  Its unobstructed
+    diameter is the (tapered) diameter at its centre.  The healthy pieces
+    take the share of the vessel's resistance that the taper integral gives
+    their stretches, so splitting a vessel outside its lesion changes nothing.
+    """
+    v = network.vessels
+    length, lesion_length = v.length_m[rows], v.stenosis_length_m[rows]
+    r_in, r_out = v.radius_in_m[rows], v.radius_out_m[rows]
+    start = np.clip(v.stenosis_at[rows] * length - lesion_length / 2, 0.0, length - lesion_length)
+    end = start + lesion_length
+
+    def radius(x):
+        return r_in + (r_out - r_in) * x / length
+
+    d0 = 2.0 * radius(start + lesion_length / 2)
+    ds = d0 * (1.0 - v.stenosis_reduction[rows])
+    r_v, k_t = young_tsai_coefficients(d0, ds, lesion_length, viscosity_pa_s[rows],
+                                       network.blood.density_kg_m3)
+    whole = tapered_resistance(length, r_in, r_out, 1.0)
+    upstream = tapered_resistance(start, r_in, radius(start), 1.0) / whole
+    downstream = tapered_resistance(length - end, radius(end), r_out, 1.0) / whole
+    resistance = np.asarray(resistance_pa_s_m3, dtype=float)[rows]
+    return r_v, k_t, resistance * upstream, resistance * downstream
 
 
 def solve(network: Network, *, viscosity_pa_s: np.ndarray | None = None,
@@ -139,19 +201,31 @@ def solve(network: Network, *, viscosity_pa_s: np.ndarray | None = None,
         viscosity_pa_s = np.full(n_vessels, network.blood.viscosity_pa_s)
     viscosity_pa_s = np.asarray(viscosity_pa_s, dtype=float)
     groups = element_groups(network, viscosity_pa_s)
-    return solve_groups(network, groups, viscosity_pa_s=viscosity_pa_s, tolerance=tolerance,
-                        max_iterations=max_iterations, method=method, factorization=factorization)
+    linear = factorization if factorization is not None else Factorization(method)
+    start = None
+    if any(isinstance(g.law, DistensibleLaw) for g in groups):   # Newton from the rigid solution
+        start = solve_groups(network, rigid_groups(groups), viscosity_pa_s=viscosity_pa_s,
+                             tolerance=tolerance, max_iterations=max_iterations,
+                             factorization=linear).pressure_pa
+    result = solve_groups(network, groups, viscosity_pa_s=viscosity_pa_s, tolerance=tolerance,
+                          max_iterations=max_iterations, initial_pressure_pa=start,
+                          factorization=linear)
+    if start is not None:
+        result = dataclasses.replace(result, solver=result.solver + ", from the rigid-wall solution")
+    return with_wall_outputs(result, groups)
 
 
 def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s: np.ndarray,
                  tolerance: float = DEFAULT_TOLERANCE,
-                 max_iterations: int = DEFAULT_MAX_ITERATIONS, method: str = "auto",
+                 max_iterations: int = DEFAULT_MAX_ITERATIONS,
+                 initial_pressure_pa: np.ndarray | None = None, method: str = "auto",
                  factorization: Factorization | None = None) -> SteadyResult:
     """Newton solve of given element groups on ``network``'s nodes (see :func:`solve`).
 
     Parts of the network cut off from every pressure reference (possible
     after an occlusion) are left out: their pressures are NaN, their flows
-    zero, and a warning names them.
+    zero, and a warning names them.  ``initial_pressure_pa`` (per node)
+    replaces the default start, the mean of the reference pressures.
     """
     nodes = network.nodes
     n = len(nodes)
@@ -164,7 +238,8 @@ def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s
     pattern = NodalPattern(n, a, b, free)
     linear = factorization if factorization is not None else Factorization(method)
     injection = np.where(np.isnan(nodes.inflow_m3_s) | cut_off, 0.0, nodes.inflow_m3_s)
-    pressure = initial_pressure(network, groups, fixed)
+    pressure = initial_pressure(network, groups, fixed) if initial_pressure_pa is None else \
+        np.where(fixed, nodes.pressure_pa, np.nan_to_num(initial_pressure_pa))
     pressure[cut_off] = np.nan
 
     def evaluate(p):
@@ -187,7 +262,12 @@ def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s
         if iterations >= max_iterations:
             raise non_convergence(network, imbalance, free, history)
         J = pattern.matrix(dqa, dqb, -dqa, -dqb)
-        step = linear.solve(J, -imbalance[free])
+        try:
+            step = linear.solve(J, -imbalance[free])
+        except RuntimeError as exc:  # SuperLU: exactly singular
+            raise SolveError(f"the Newton system is singular ({exc}): some part's pressure level is "
+                             "set by nothing (for example a prescribed inflow with every bed holding "
+                             "its autoregulated flow); give it a fixed pressure or a fixed bed") from None
         pressure, q, dqa, dqb, imbalance = line_search(pressure, step, free, evaluate, worst, scale)
         iterations += 1
         if not np.isfinite(pressure[free]).all():
@@ -231,7 +311,8 @@ def non_convergence(network: Network, imbalance, free, history) -> SolveError:
     trail = ", ".join(f"{h:.1e}" for h in history[-5:])
     return SolveError(f"the steady solve did not converge in {len(history) - 1} Newton steps: "
                       f"largest flow imbalance {history[-1]:.2e} of the total inflow, at node "
-                      f"'{node}' (last residuals {trail}); check lesions and extreme values near it",
+                      f"'{node}' (last residuals {trail}); check lesions, distensible walls and "
+                      "extreme values near it",
                       ids=(node,))
 
 
@@ -250,11 +331,13 @@ def finish(network, groups, pressure, q, imbalance, free, fixed, cut_off, viscos
         offset += len(g.a)
         (vessel_flow if g.kind == "vessel" else bed_flow)[g.rows] = flows
         drop = g.pressure_drop(np.nan_to_num(pressure))
-        law_error = max(law_error, float(np.abs(drop - g.law.pressure_drop(flows)).max(initial=0.0)))
+        law_drop = g.law_pressure_drop(np.nan_to_num(pressure), flows)
+        law_error = max(law_error, float(np.abs(drop - law_drop).max(initial=0.0)))
         drop_scale = max(drop_scale, float(np.abs(drop).max(initial=0.0)))
-        if g.kind == "vessel" and isinstance(g.law, QuadraticLaw):
+        if g.kind == "vessel" and not isinstance(g.law, LinearLaw):
             safe = np.where(flows != 0, flows, 1.0)
-            effective[g.rows] = np.where(flows != 0, drop / safe, g.law.resistance)
+            slope = g.evaluate(np.nan_to_num(pressure))[1]
+            effective[g.rows] = np.where(flows != 0, drop / safe, 1.0 / slope)
     injection = np.where(np.isnan(network.nodes.inflow_m3_s) | cut_off, 0.0, network.nodes.inflow_m3_s)
     boundary = np.where(fixed, imbalance + injection, injection)
     total_in = max(float(boundary[boundary > 0].sum() - bed_flow[(bed_flow < 0)].sum()), 1e-300)
@@ -270,8 +353,11 @@ def finish(network, groups, pressure, q, imbalance, free, fixed, cut_off, viscos
     warnings = laminar_warnings(network, result.vessel_reynolds)
     if cut_off.any():
         names = ", ".join(f"'{network.nodes.ids[i]}'" for i in np.flatnonzero(cut_off)[:8])
+        dropped = np.nansum(network.nodes.inflow_m3_s[cut_off])
+        lost = (f"; their prescribed inflow of {dropped * 6e7:.4g} mL/min has nowhere to go and was "
+                "left out too") if dropped else ""
         warnings.append(f"{int(cut_off.sum())} nodes are cut off from every pressure reference and "
-                        f"were left out (pressures undetermined, flows zero): {names}")
+                        f"were left out (pressures undetermined, flows zero): {names}{lost}")
     if mass_balance > 1e-6:
         warnings.append(f"mass balance {mass_balance:.1e}: the solve lost accuracy; check for extreme"
                         " radius or length ratios")

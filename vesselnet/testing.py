@@ -73,7 +73,7 @@ def check_invariants(result: SteadyResult) -> dict[str, float]:
     for g in groups:
         flows = (result.vessel_flow_m3_s if g.kind == "vessel" else result.bed_flow_m3_s)[g.rows]
         drop = g.pressure_drop(p)
-        law = max(law, float(np.abs(drop - g.law.pressure_drop(flows)).max(initial=0.0)))
+        law = max(law, float(np.abs(drop - g.law_pressure_drop(p, flows)).max(initial=0.0)))
         scale = max(scale, float(np.abs(drop).max(initial=0.0)))
     ids_ok = (tuple(result.node_table()["id"]) == net.nodes.ids
               and tuple(result.vessel_table()["id"]) == net.vessels.ids

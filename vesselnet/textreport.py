@@ -17,6 +17,7 @@ import numpy as np
 
 from .result import SteadyResult
 from .units import DISPLAY_UNITS, from_si
+from .walls import volume_summary
 
 MAX_ROWS = 40
 
@@ -100,5 +101,58 @@ def solve_report(result: SteadyResult) -> str:
              f"checks: mass balance {result.mass_balance:.1e}, law residual {result.law_residual:.1e},"
              f" {result.iterations} Newton step(s), solver {result.solver}"
              + (f": {result.solver_reason}" if result.solver_reason else "")]
+    parts[8:8] = wall_report_parts(result)
     parts += [f"warning: {w}" for w in result.warnings]
     return "\n".join(parts)
+
+
+def volume_line(result: SteadyResult) -> str:
+    """One line: the vessels' blood volume, stressed part, and per tag (largest first).
+
+    Empty when the result carries no volumes.
+    """
+    summary = volume_summary(result)
+    if not summary:
+        return ""
+    unit = DISPLAY_UNITS["volume"]
+
+    def ml(x):
+        return f"{from_si(x, 'volume', unit):.1f}"
+
+    text = (f"blood volume in vessels {ml(summary['total_m3'])} {unit} (unstressed "
+            f"{ml(summary['unstressed_m3'])}, stressed {ml(summary['stressed_m3'])})")
+    parts = sorted(summary["by_tag"].items(), key=lambda kv: -kv[1]["volume_m3"])
+    if parts:
+        text += "; by tag: " + ", ".join(f"{tag} {ml(p['volume_m3'])} ({100 * p['share']:.0f} %)"
+                                         for tag, p in parts[:8])
+        text += " ..." if len(parts) > 8 else ""
+    return text
+
+
+def wall_table_text(result: SteadyResult, limit: int = MAX_ROWS) -> str:
+    """Vessels with wall data or a distensible wall: lumen radius, strain, wall stress, volume."""
+    v = result.network.vessels
+    extra = result.vessel_extra
+    rows_ = np.flatnonzero(~np.isnan(v.wall_thickness_m) | v.distensible)
+    radius = from_si(extra["lumen_radius_m"], "radius", DISPLAY_UNITS["radius"])
+    stress = from_si(extra["wall_stress_pa"], "stress", DISPLAY_UNITS["stress"])
+    volume = from_si(extra["volume_m3"], "volume", DISPLAY_UNITS["volume"])
+    rows = [[v.ids[i], radius[i], 100 * extra["wall_strain"][i], stress[i], volume[i],
+             "distensible" if np.isfinite(extra["wall_strain"][i]) else ""] for i in rows_]
+    rows, more = _truncated(rows, limit)
+    text = format_table(["vessel", f"lumen radius [{DISPLAY_UNITS['radius']}]", "strain [%]",
+                         f"wall stress [{DISPLAY_UNITS['stress']}]",
+                         f"volume [{DISPLAY_UNITS['volume']}]", ""], rows, digits=2)
+    return text + ("\n" + more if more else "")
+
+
+def wall_report_parts(result: SteadyResult) -> list[str]:
+    """The wall section of the solve report (empty without wall results)."""
+    if "volume_m3" not in result.vessel_extra:
+        return []
+    v = result.network.vessels
+    parts = [volume_line(result), ""]
+    if (~np.isnan(v.wall_thickness_m) | v.distensible).any():
+        parts[1:1] = ["", "Walls (at mean pressure; strain of distensible vessels)",
+                      wall_table_text(result)]
+    return parts

@@ -30,6 +30,7 @@ import numpy as np
 
 from .result import SteadyResult
 from .units import DISPLAY_UNITS, from_si
+from .walls import volume_summary
 
 FORMAT_VERSION = 1
 SIGNIFICANT_DIGITS = 10
@@ -44,7 +45,22 @@ VESSEL_COLUMNS = (("flow", "flow_m3_s", "flow"), ("pressure_drop", "pressure_dro
 BED_COLUMNS = (("flow", "flow_m3_s", "flow"), ("share", "share", None),
                ("pressure", "pressure_pa", "pressure"),
                ("perfusion_pressure", "perfusion_pressure_pa", "pressure"))
-EXTRA_KINDS = {"hematocrit": None, "tube_hematocrit": None, "red_cell_flux_m3_s": "flow"}
+EXTRA_KINDS = {"hematocrit": None, "tube_hematocrit": None, "red_cell_flux_m3_s": "flow",
+               "lumen_radius_m": "radius", "wall_strain": None, "wall_stress_pa": "stress",
+               "volume_m3": "volume"}
+SI_SUFFIXES = ("_m3_s", "_m3", "_pa", "_m")
+"""Unit suffixes dropped from the names of converted extra columns (``volume_m3`` -> ``volume``)."""
+
+
+def extra_name(key: str) -> str:
+    """Output name of a ``vessel_extra`` column: its SI suffix dropped when it is converted.
+
+    >>> extra_name("red_cell_flux_m3_s"), extra_name("wall_stress_pa"), extra_name("hematocrit")
+    ('red_cell_flux', 'wall_stress', 'hematocrit')
+    """
+    if EXTRA_KINDS.get(key) is None:
+        return key
+    return next((key[: -len(s)] for s in SI_SUFFIXES if key.endswith(s)), key)
 
 
 def number(value):
@@ -107,7 +123,7 @@ def vessel_columns(result: SteadyResult) -> dict[str, np.ndarray]:
     cols = _converted(table, VESSEL_COLUMNS)
     for key, values in result.vessel_extra.items():
         kind = EXTRA_KINDS.get(key)
-        name = key.removesuffix("_m3_s")
+        name = extra_name(key)
         cols[name] = from_si(values, kind, DISPLAY_UNITS[kind]) if kind else values
     return cols
 
@@ -139,7 +155,24 @@ def result_json(result: SteadyResult) -> dict:
     return {"vesselnet": FORMAT_VERSION, "network": result.network.name, "units": units_map(),
             "inflow": number(from_si(result.inflow_m3_s, "flow", DISPLAY_UNITS["flow"])),
             "nodes": nodes_json(result), "vessels": vessels_json(result), "beds": beds_json(result),
-            "checks": checks_json(result), "warnings": list(result.warnings)}
+            "checks": checks_json(result), "warnings": list(result.warnings),
+            **({"volumes": volumes_json(result)} if "volume_m3" in result.vessel_extra else {})}
+
+
+def volumes_json(result: SteadyResult) -> dict:
+    """The ``volumes`` map: blood volume of the vessels, total and per tag (display units)."""
+    summary = volume_summary(result)
+    unit = DISPLAY_UNITS["volume"]
+
+    def entry(part):
+        return {"volume": number(from_si(part["volume_m3"], "volume", unit)),
+                "share": number(part["share"])}
+
+    return {"total": number(from_si(summary["total_m3"], "volume", unit)),
+            "unstressed": number(from_si(summary["unstressed_m3"], "volume", unit)),
+            "stressed": number(from_si(summary["stressed_m3"], "volume", unit)),
+            "by_tag": {tag: entry(part) for tag, part in summary["by_tag"].items()},
+            "untagged": entry(summary["untagged"])}
 
 
 def dumps(document) -> str:
@@ -184,6 +217,7 @@ def atomic_write(path, text: str | bytes) -> None:
         else:
             with os.fdopen(handle, "w", encoding="utf-8", newline="") as out:
                 out.write(text)
+        os.chmod(tmp, 0o666 & ~_umask())  # mkstemp makes 0600; give the usual permissions
         os.replace(tmp, path)
     except BaseException:
         try:
@@ -191,6 +225,12 @@ def atomic_write(path, text: str | bytes) -> None:
         except OSError:
             pass
         raise
+
+
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
 
 
 def spreadsheet_safe(cell: str) -> str:
@@ -285,7 +325,7 @@ def write_tables(result: SteadyResult, directory) -> list[Path]:
     directory = Path(directory)
     directory.mkdir(parents=True, exist_ok=True)
     kinds = {name: kind for name, _, kind in NODE_COLUMNS + VESSEL_COLUMNS + BED_COLUMNS}
-    kinds.update({k.removesuffix("_m3_s"): v for k, v in EXTRA_KINDS.items()})
+    kinds.update({extra_name(k): v for k, v in EXTRA_KINDS.items()})
     units = {name: DISPLAY_UNITS[kind] for name, kind in kinds.items() if kind}
     net = result.network
     node_ids = as_bytes(net.nodes.ids)        # once: from, to and node are gathers of it

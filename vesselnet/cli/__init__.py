@@ -17,6 +17,10 @@ COMMANDS = (
     "demo",
     "check",
     "solve",
+    "compare",
+    "pulse",
+    "windkessel",
+    "view",
     "convert",
 )
 """Modules of this package that define a command, in help order."""

@@ -1,4 +1,4 @@
-"""``vesselnet check FILE``: validate a network file."""
+"""``vesselnet check FILE``: validate a network or scenario file."""
 
 from __future__ import annotations
 
@@ -13,9 +13,15 @@ def add_parser(sub) -> None:
 def run(args) -> int:
     import numpy as np
 
+    from ..filekind import file_kind_of
     from ..reader import load_network
     from .steady import emit
 
+    if file_kind_of(args.file) == "scenario":
+        from ..scenarios import check_scenario_file
+
+        emit(check_scenario_file(args.file))
+        return 0
     net = load_network(args.file)
     fixed = int((~np.isnan(net.nodes.pressure_pa)).sum())
     inflows = int((~np.isnan(net.nodes.inflow_m3_s)).sum())

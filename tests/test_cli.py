@@ -1,0 +1,78 @@
+"""The command line: outputs, exit codes, CSV tables that read back."""
+
+import csv
+import subprocess
+import sys
+
+import numpy as np
+import pytest
+
+from vesselnet.cli import main
+from vesselnet.csvtables import read_table
+from vesselnet.demos import demo_path
+from vesselnet.reader import load_network
+from vesselnet.solve import solve
+
+
+def test_help_lists_commands(capsys):
+    with pytest.raises(SystemExit) as stop:
+        main(["--help"])
+    assert stop.value.code == 0
+    out = capsys.readouterr().out
+    for command in ("demo", "check", "solve"):
+        assert command in out
+
+
+def test_check_reports_a_valid_network(capsys):
+    assert main(["check", str(demo_path("leg"))]) == 0
+    assert "valid network" in capsys.readouterr().out
+
+
+def test_solve_writes_csv_tables_with_units(tmp_path, capsys):
+    out = tmp_path / "tables"
+    assert main(["solve", str(demo_path("leg")), "-o", str(out)]) == 0
+    assert {p.name for p in out.iterdir()} == {"nodes.csv", "vessels.csv", "beds.csv"}
+    with open(out / "vessels.csv") as handle:
+        header = next(csv.reader(handle))
+    assert header[:3] == ["id", "from", "to"] and "flow[mL/min]" in header and "wss[Pa]" in header
+    result = solve(load_network(demo_path("leg")))
+    with open(out / "beds.csv") as handle:
+        rows = list(csv.DictReader(handle))
+    np.testing.assert_allclose([float(r["flow[mL/min]"]) for r in rows], result.bed_flow_m3_s * 6e7, rtol=1e-9)
+    nodes = read_table(out / "nodes.csv", "nodes", {})
+    assert not nodes.problems  # the output table reads back as an input table
+    np.testing.assert_allclose(nodes.columns["pressure_pa"], result.pressure_pa, rtol=1e-9)
+
+
+def test_solve_json_prints_only_json(capsys):
+    assert main(["solve", str(demo_path("collateral")), "--json"]) == 0
+    out = capsys.readouterr().out
+    assert out.lstrip().startswith("{") and out.rstrip().endswith("}")
+
+
+def test_same_input_same_bytes(tmp_path):
+    """Determinism: two runs give identical output bytes."""
+    runs = [subprocess.run([sys.executable, "-m", "vesselnet", "solve", str(demo_path("whole_body")), "--json"],
+                           capture_output=True, cwd=tmp_path, check=True).stdout for _ in range(2)]
+    assert runs[0] == runs[1]
+
+
+def test_console_script_runs_demo(tmp_path):
+    """`python -m vesselnet demo` from an unrelated folder (installed package data)."""
+    run = subprocess.run([sys.executable, "-m", "vesselnet", "demo"], capture_output=True, text=True, cwd=tmp_path)
+    assert run.returncode == 0, run.stderr
+    assert "whole_body.yaml" in run.stdout
+
+
+def test_written_files_get_the_usual_permissions(tmp_path):
+    """Atomic writes go through mkstemp (mode 0600); the final file follows the umask instead."""
+    import os
+
+    from vesselnet.writers import atomic_write
+    old = os.umask(0o022)
+    try:
+        atomic_write(tmp_path / "x.txt", "hello")
+    finally:
+        os.umask(old)
+    assert (tmp_path / "x.txt").stat().st_mode & 0o777 == 0o644
+    assert [p.name for p in tmp_path.iterdir()] == ["x.txt"]
