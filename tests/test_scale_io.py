@@ -133,3 +133,61 @@ def test_synthetic_networks_follow_murray_and_count_exactly(topology):
         index[parent] = len(rs)
     degree = np.bincount(frm, minlength=to.max() + 1) + np.bincount(to, minlength=to.max() + 1)
     assert len(cols["beds"]["id"]) == int(((degree == 1) & (np.arange(len(degree)) > 0)).sum())
+
+
+def _reference_csv(ids, text_columns, columns, units):
+    """The table as ``csv.writer`` writes it cell by cell (the obvious, slow way)."""
+    from vesselnet.writers import number, spreadsheet_safe
+
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\n")
+    writer.writerow(["id"] + list(text_columns)
+                    + [f"{n}[{units[n]}]" if units.get(n) else n for n in columns])
+    for i, item in enumerate(ids):
+        row = [spreadsheet_safe(str(item))]
+        row += [spreadsheet_safe(str(c[i])) for c in text_columns.values()]
+        for values in columns.values():
+            value = number(values[i])
+            row.append("" if value is None else str(value).lower() if isinstance(value, bool)
+                       else repr(value))
+        writer.writerow(row)
+    return buffer.getvalue()
+
+
+@pytest.mark.parametrize("case", ["leg", "whole_body", "collateral", "synthetic"])
+def test_result_tables_match_the_csv_module(case):
+    """write_tables' column-at-a-time text equals csv.writer with repr of 10 digits, byte for byte."""
+    from vesselnet.demos import demo_path
+    from vesselnet.reader import load_network
+    from vesselnet.solve import solve
+    from vesselnet.synthetic import synthetic_network
+    from vesselnet.writers import (BED_COLUMNS, NODE_COLUMNS, _converted, csv_text,
+                                   vessel_columns)
+
+    net = synthetic_network(2000, "local", seed=1999) if case == "synthetic" \
+        else load_network(demo_path(case))
+    result = solve(net)
+    units = {"flow": "mL/min", "pressure": "mmHg"}
+    vessels = result.vessel_table()
+    text = {"from": list(vessels["from"]), "to": list(vessels["to"])}
+    columns = vessel_columns(result)
+    assert csv_text(vessels["id"], text, columns, units) == _reference_csv(vessels["id"], text,
+                                                                            columns, units)
+    nodes = result.node_table()
+    cols = _converted(nodes, NODE_COLUMNS)
+    assert csv_text(nodes["id"], {}, cols, units) == _reference_csv(nodes["id"], {}, cols, units)
+    beds = result.bed_table()
+    cols = _converted(beds, BED_COLUMNS)
+    assert csv_text(beds["id"], {"node": list(beds["node"])}, cols, units) == \
+        _reference_csv(beds["id"], {"node": list(beds["node"])}, cols, units)
+
+
+@pytest.mark.parametrize("ids", [["=a", "b,c", 'q"x', "-d", "@e", "é", "f\ng", "\tt", "plain"]])
+def test_risky_text_cells_match_the_csv_module(ids):
+    """Formula-like cells get a quote mark, cells with , " or newlines are quoted (csv module)."""
+    from vesselnet.writers import csv_text
+
+    numbers = {"x": np.linspace(-1.5, 2.0, len(ids)), "flag": np.arange(len(ids)) % 2 == 0,
+               "count": np.arange(len(ids))}
+    text = {"node": list(reversed(ids))}
+    assert csv_text(ids, text, numbers, {}) == _reference_csv(ids, text, numbers, {})

@@ -97,6 +97,11 @@ class _Columns:
         """Map from id to row."""
         return {item: row for row, item in enumerate(self.ids)}
 
+    @functools.cached_property
+    def id_array(self) -> np.ndarray:
+        """The ids as a read-only numpy ``str`` array (for writers of large tables)."""
+        return _frozen_array(self.ids, str) if len(self.ids) else np.zeros(0, dtype="U1")
+
     def row(self, i: int) -> dict[str, object]:
         """Item ``i`` as a dict: ``id`` and every column's value (Python scalars)."""
         out: dict[str, object] = {"id": self.ids[i]}

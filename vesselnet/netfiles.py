@@ -87,8 +87,7 @@ def network_arrays(network: Network) -> dict[str, np.ndarray]:
               "venous_pressure_pa": network.venous_pressure_pa,
               "inflow_waveforms": {str(k): _plain(w) for k, w in nodes.inflow_waveforms.items()}}
     out = {"header": np.array(json.dumps(header)),
-           "node_id": np.array(nodes.ids, dtype=str), "vessel_id": np.array(v.ids, dtype=str),
-           "bed_id": np.array(beds.ids, dtype=str)}
+           "node_id": nodes.id_array, "vessel_id": v.id_array, "bed_id": beds.id_array}
     out.update({f"node_{c}": getattr(nodes, c) for c in _NODE_COLUMNS})
     out.update({f"vessel_{c}": getattr(v, c) for c in _VESSEL_COLUMNS})
     out.update({f"bed_{c}": getattr(beds, c) for c in _BED_COLUMNS})
@@ -149,6 +148,9 @@ def read_npz(path) -> Network:
     problems = topology_problems(network)
     if problems:
         raise NetworkSpecError(problems)
+    for section, key in ((network.nodes, "node_id"), (network.vessels, "vessel_id"),
+                         (network.beds, "bed_id")):
+        section.__dict__["id_array"] = arrays[key]     # the cached property, already at hand
     return network
 
 

@@ -234,6 +234,11 @@ def as_bytes(column) -> np.ndarray:
     """
     if isinstance(column, np.ndarray) and column.dtype.kind == "S":
         return column
+    if isinstance(column, np.ndarray) and column.dtype.kind == "U":
+        try:
+            return column.astype(f"S{max(column.dtype.itemsize // 4, 1)}")   # ASCII: one C pass
+        except UnicodeEncodeError:
+            pass
     items = column.tolist() if isinstance(column, np.ndarray) else list(column)
     if not items:
         return np.zeros(0, dtype="S1")

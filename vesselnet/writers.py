@@ -328,15 +328,15 @@ def write_tables(result: SteadyResult, directory) -> list[Path]:
     kinds.update({extra_name(k): v for k, v in EXTRA_KINDS.items()})
     units = {name: DISPLAY_UNITS[kind] for name, kind in kinds.items() if kind}
     net = result.network
-    node_ids = as_bytes(net.nodes.ids)        # once: from, to and node are gathers of it
+    node_ids = as_bytes(net.nodes.id_array)   # once: from, to and node are gathers of it
     nodes = result.node_table()
     beds = result.bed_table()
     tables = {
         "nodes.csv": (node_ids, {}, _converted(nodes, NODE_COLUMNS)),
-        "vessels.csv": (as_bytes(net.vessels.ids), {"from": node_ids[net.vessels.from_node],
+        "vessels.csv": (as_bytes(net.vessels.id_array), {"from": node_ids[net.vessels.from_node],
                                                      "to": node_ids[net.vessels.to_node]},
                         vessel_columns(result)),
-        "beds.csv": (as_bytes(net.beds.ids), {"node": node_ids[net.beds.node]},
+        "beds.csv": (as_bytes(net.beds.id_array), {"node": node_ids[net.beds.node]},
                      _converted(beds, BED_COLUMNS)),
     }
     paths = []
@@ -359,9 +359,8 @@ def write_arrays(result: SteadyResult, path) -> Path:
     """
     path = Path(path)
     net = result.network
-    arrays = {"node_id": np.array(net.nodes.ids, dtype=str),
-              "vessel_id": np.array(net.vessels.ids, dtype=str),
-              "bed_id": np.array(net.beds.ids, dtype=str),
+    arrays = {"node_id": net.nodes.id_array, "vessel_id": net.vessels.id_array,
+              "bed_id": net.beds.id_array,
               "vessel_from_node": net.vessels.from_node, "vessel_to_node": net.vessels.to_node,
               "bed_node": net.beds.node}
     for prefix, table in (("node", result.node_table()), ("vessel", result.vessel_table()),
