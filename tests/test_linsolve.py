@@ -264,15 +264,21 @@ def test_unknown_method_is_refused():
         Factorization("gauss")
 
 
+@pytest.mark.parametrize("cholmod", [False, True])
 @pytest.mark.parametrize("topology, expected", [("long", "amg"), ("local", "superlu"),
                                                 ("tree", "tree")])
-def test_auto_without_cholmod(monkeypatch, topology, expected):
-    """Without scikit-sparse, auto takes AMG only for large networks with long-range loops."""
+def test_auto_for_large_networks(monkeypatch, topology, expected, cholmod):
+    """auto takes AMG only for large networks with long-range loops; local loops go to a
+    direct solver (CHOLMOD when it imports)."""
     import vesselnet.linsolve as linsolve
 
     if expected == "amg" and not amg_available():
         pytest.skip("pyamg not installed")
-    monkeypatch.setattr(linsolve, "cholmod_available", lambda: False)
+    if cholmod and not cholmod_available():
+        pytest.skip("scikit-sparse not installed")
+    if cholmod and expected == "superlu":
+        expected = "cholmod"
+    monkeypatch.setattr(linsolve, "cholmod_available", lambda: cholmod)
     monkeypatch.setattr(linsolve, "AMG_AUTO_SIZE", 100)
     net = synthetic_network(3000, topology, seed=4711)
     A, rhs = nodal_system(net, 8)
