@@ -43,6 +43,7 @@ array([1., 1., 1.])
 
 from __future__ import annotations
 
+import functools
 import importlib.util
 
 import numpy as np
@@ -151,6 +152,11 @@ class Structure:
             parent[parent == n] = -1
             self._bfs = (order, parent)
         return self._bfs
+
+    @functools.cached_property
+    def local_loops(self) -> bool:
+        """Whether (99 % of) the loops close within a short stretch of breadth-first order."""
+        return self.loops_are_local()
 
     def loops_are_local(self) -> bool:
         """Whether every loop closes within a short stretch of breadth-first order."""
@@ -277,7 +283,7 @@ class Factorization:
             return "superlu", f"requested; the matrix is {kind}"
         if s.is_forest:
             return "tree", forest + ": O(n) elimination, no fill"
-        if symmetric and s.n >= AMG_AUTO_SIZE and amg_available() and not s.loops_are_local():
+        if symmetric and s.n >= AMG_AUTO_SIZE and amg_available() and not s.local_loops:
             return "amg", (f"{loops} spanning the network ({s.n} nodes): direct factors fill in "
                            "(minutes at 10^6), multigrid does not")
         if symmetric and cholmod_available():
@@ -289,7 +295,7 @@ class Factorization:
 
     def _symmetric_ordering(self, s: Structure) -> tuple[str, np.ndarray | None]:
         """('deepest-first', perm) for forests and local loops, else ('amd', None)."""
-        if s.is_forest or s.loops_are_local():
+        if s.is_forest or s.local_loops:
             return "deepest-first", s.deepest_first()
         return "amd", None
 
