@@ -51,7 +51,10 @@ def load_network(path) -> Network:
     Parameters
     ----------
     path : str or Path
-        The network file; table paths inside it are relative to it.
+        The network file; table paths inside it are relative to it.  A
+        ``.json`` file holds the same document as JSON, a ``.npz`` file the
+        binary columns written by ``vesselnet convert`` (see
+        :mod:`vesselnet.netfiles`); any other name is read as YAML.
 
     Returns
     -------
@@ -64,6 +67,11 @@ def load_network(path) -> Network:
     NetworkSpecError
         With every problem found, each naming file, line, item and fix.
     """
+    suffix = Path(path).suffix.lower()
+    if suffix in (".json", ".npz"):
+        from . import netfiles
+
+        return netfiles.read_json(path) if suffix == ".json" else netfiles.read_npz(path)
     doc = yamlread.load_file(path)
     return read_network(doc, str(path), Path(path).parent)
 
@@ -455,46 +463,61 @@ def read_autoregulation(fr: FieldReader, b, label: str, resistance: float) -> tu
 
 
 def _append(into: dict[str, list], columns: dict[str, object], table_tags, tags) -> None:
-    """Join a table's columns after the YAML items of the same section."""
+    """Join a table's columns after the YAML items of the same section (arrays stay arrays)."""
     offset = len(into["id"])
     n = len(columns.get("id", ()))
     for key in into:
         if key in columns:
-            into[key] = list(into[key]) + list(columns[key])
+            new = columns[key]
         else:
             fill = {"distensible": False, "wall_poisson": 0.5, "stenosis_at": 0.5,
                     "external_pressure_pa": 0.0, "line": 0, "outflow_node": None,
                     "position_m": (NAN, NAN, NAN)}.get(key, NAN)
-            into[key] = list(into[key]) + [fill] * n
+            new = [fill] * n if key in ("outflow_node", "position_m") else np.full(n, fill)
+        if isinstance(new, np.ndarray) and key not in ("id", "from", "to", "node", "outflow_node"):
+            old = np.asarray(into[key]) if len(into[key]) else np.empty((0,) + new.shape[1:],
+                                                                        dtype=new.dtype)
+            into[key] = np.concatenate([old.reshape((-1,) + new.shape[1:]), new]) if offset else new
+        else:
+            into[key] = list(into[key]) + list(new) if offset else list(new)
     for tag, rows in (table_tags or {}).items():
         tags.setdefault(tag, []).extend(int(r) + offset for r in rows)
 
 
 def check_references(fr: FieldReader, vessels, nodes, beds) -> None:
     """Unique ids, no self-loops, every referenced node reached by a vessel."""
-    touched = set(vessels["from"]) | set(vessels["to"])
+    touched = set(vessels["from"])
+    touched.update(vessels["to"])
     _duplicates(fr, vessels, "vessels")
     _duplicates(fr, beds, "beds")
-    for i, (vid, a, b) in enumerate(zip(vessels["id"], vessels["from"], vessels["to"])):
-        if a and a == b:
-            fr.add((int(vessels["line"][i]), 0), f"vessels[{i}] '{vid}'",
-                   f"the vessel starts and ends at node '{a}' (a self-loop)",
-                   "join two different nodes")
-    for i, node_id in enumerate(nodes["id"]):
-        if node_id not in touched:
-            fr.add((int(nodes["line"][i]), 0), f"nodes '{node_id}'",
-                   "no vessel joins this node", near_miss(node_id, touched) or
-                   "join it with a vessel or remove it")
-    for i, bid in enumerate(beds["id"]):
-        for key in ("node", "outflow_node"):
-            ref = beds[key][i]
+    frm = np.asarray(vessels["from"], dtype=object)
+    to = np.asarray(vessels["to"], dtype=object)
+    for i in np.flatnonzero((frm == to) & (frm != "")).tolist():
+        vid, a = vessels["id"][i], frm[i]
+        fr.add((int(vessels["line"][i]), 0), f"vessels[{i}] '{vid}'",
+               f"the vessel starts and ends at node '{a}' (a self-loop)",
+               "join two different nodes")
+    if not touched.issuperset(nodes["id"]):
+        for i, node_id in enumerate(nodes["id"]):
+            if node_id not in touched:
+                fr.add((int(nodes["line"][i]), 0), f"nodes '{node_id}'",
+                       "no vessel joins this node", near_miss(node_id, touched) or
+                       "join it with a vessel or remove it")
+    for key in ("node", "outflow_node"):
+        refs = beds[key]
+        if touched.issuperset(filter(None, refs)):
+            continue
+        for i, ref in enumerate(refs):
             if ref and ref not in touched:
+                bid = beds["id"][i]
                 fr.add((int(beds["line"][i]), 0), f"beds[{i}] '{bid}'",
                        f"{key} '{ref}' is not joined by any vessel",
                        near_miss(ref, touched) or "name a node that a vessel joins")
 
 
 def _duplicates(fr: FieldReader, cols, section: str) -> None:
+    if len(set(cols["id"])) == len(cols["id"]):
+        return
     seen: dict[str, int] = {}
     for i, item in enumerate(cols["id"]):
         if item in seen:

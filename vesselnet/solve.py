@@ -26,10 +26,11 @@ import dataclasses
 
 import numpy as np
 
-from .assembly import NodalPattern, solve_sparse
+from .assembly import NodalPattern
 from .autoregulation import AutoregulatedLaw
 from .elements import ElementGroup, LinearLaw, QuadraticLaw
 from .errors import SolveError
+from .linsolve import Factorization
 from .model import Network
 from .resistance import tapered_resistance
 from .result import SteadyResult, laminar_warnings
@@ -161,7 +162,8 @@ def lesion_coefficients(network: Network, rows: np.ndarray, viscosity_pa_s: np.n
 
 def solve(network: Network, *, viscosity_pa_s: np.ndarray | None = None,
           tolerance: float = DEFAULT_TOLERANCE,
-          max_iterations: int = DEFAULT_MAX_ITERATIONS) -> SteadyResult:
+          max_iterations: int = DEFAULT_MAX_ITERATIONS, method: str = "auto",
+          factorization: Factorization | None = None) -> SteadyResult:
     """Steady pressures and flows of ``network``.
 
     Parameters
@@ -178,10 +180,18 @@ def solve(network: Network, *, viscosity_pa_s: np.ndarray | None = None,
         Convergence: largest nodal imbalance relative to the total inflow.
     max_iterations : int
         Newton step cap.
+    method : {'auto', 'superlu', 'tree', 'cholmod', 'amg'}
+        Linear solver (see :mod:`vesselnet.linsolve`); ``auto`` eliminates
+        trees in O(n) and factorises other networks.
+    factorization : Factorization, optional
+        Reuse the analysis (ordering, symbolic factorisation) of an earlier
+        solve of a network with the same topology (samples of a study);
+        ``method`` is then ignored.
 
     Returns
     -------
     SteadyResult
+        ``solver`` and ``solver_reason`` say which linear solver ran and why.
 
     Raises
     ------
@@ -199,12 +209,15 @@ def solve(network: Network, *, viscosity_pa_s: np.ndarray | None = None,
         viscosity_pa_s = np.full(n_vessels, network.blood.viscosity_pa_s)
     viscosity_pa_s = np.asarray(viscosity_pa_s, dtype=float)
     groups = element_groups(network, viscosity_pa_s)
+    linear = factorization if factorization is not None else Factorization(method)
     start = None
     if any(isinstance(g.law, DistensibleLaw) for g in groups):   # Newton from the rigid solution
         start = solve_groups(network, rigid_groups(groups), viscosity_pa_s=viscosity_pa_s,
-                             tolerance=tolerance, max_iterations=max_iterations).pressure_pa
+                             tolerance=tolerance, max_iterations=max_iterations,
+                             factorization=linear).pressure_pa
     result = solve_groups(network, groups, viscosity_pa_s=viscosity_pa_s, tolerance=tolerance,
-                          max_iterations=max_iterations, initial_pressure_pa=start)
+                          max_iterations=max_iterations, initial_pressure_pa=start,
+                          factorization=linear)
     if start is not None:
         result = dataclasses.replace(result, solver=result.solver + ", from the rigid-wall solution")
     return with_wall_outputs(result, groups)
@@ -213,7 +226,8 @@ def solve(network: Network, *, viscosity_pa_s: np.ndarray | None = None,
 def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s: np.ndarray,
                  tolerance: float = DEFAULT_TOLERANCE,
                  max_iterations: int = DEFAULT_MAX_ITERATIONS,
-                 initial_pressure_pa: np.ndarray | None = None) -> SteadyResult:
+                 initial_pressure_pa: np.ndarray | None = None, method: str = "auto",
+                 factorization: Factorization | None = None) -> SteadyResult:
     """Newton solve of given element groups on ``network``'s nodes (see :func:`solve`).
 
     Parts of the network cut off from every pressure reference (possible
@@ -230,6 +244,7 @@ def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s
     a = np.concatenate([g.a for g in groups])
     b = np.concatenate([g.b for g in groups])
     pattern = NodalPattern(n, a, b, free)
+    linear = factorization if factorization is not None else Factorization(method)
     injection = np.where(np.isnan(nodes.inflow_m3_s) | cut_off, 0.0, nodes.inflow_m3_s)
     pressure = initial_pressure(network, groups, fixed) if initial_pressure_pa is None else \
         np.where(fixed, nodes.pressure_pa, np.nan_to_num(initial_pressure_pa))
@@ -256,7 +271,7 @@ def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s
             raise non_convergence(network, imbalance, free, history)
         J = pattern.matrix(dqa, dqb, -dqa, -dqb)
         try:
-            step = solve_sparse(J, -imbalance[free])
+            step = linear.solve(J, -imbalance[free])
         except RuntimeError as exc:  # SuperLU: exactly singular
             raise SolveError(f"the Newton system is singular ({exc}): some part's pressure level is "
                              "set by nothing (for example a prescribed inflow with every bed holding "
@@ -267,7 +282,7 @@ def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s
             raise SolveError("the linear solve returned non-finite pressures; the system is "
                              "singular or too badly conditioned")
     return finish(network, groups, pressure, q, imbalance, free, fixed, cut_off, viscosity_pa_s,
-                  iterations, history)
+                  iterations, history, linear=linear)
 
 
 def initial_pressure(network: Network, groups, fixed: np.ndarray) -> np.ndarray:
@@ -310,7 +325,7 @@ def non_convergence(network: Network, imbalance, free, history) -> SolveError:
 
 
 def finish(network, groups, pressure, q, imbalance, free, fixed, cut_off, viscosity_pa_s,
-           iterations, history) -> SteadyResult:
+           iterations, history, *, linear: Factorization | None = None) -> SteadyResult:
     """Map element flows back to vessels and beds and check the invariants."""
     v = network.vessels
     vessel_flow = np.zeros(len(v))
@@ -340,7 +355,9 @@ def finish(network, groups, pressure, q, imbalance, free, fixed, cut_off, viscos
         boundary_inflow_m3_s=boundary, vessel_viscosity_pa_s=viscosity_pa_s,
         vessel_resistance_pa_s_m3=effective, iterations=iterations,
         residual_history=tuple(history), mass_balance=mass_balance,
-        law_residual=law_error / drop_scale, solver="superlu (MMD_AT_PLUS_A ordering)")
+        law_residual=law_error / drop_scale,
+        solver=linear.description if linear else "superlu (MMD_AT_PLUS_A ordering)",
+        solver_reason=linear.reason if linear else "")
     warnings = laminar_warnings(network, result.vessel_reynolds)
     if cut_off.any():
         names = ", ".join(f"'{network.nodes.ids[i]}'" for i in np.flatnonzero(cut_off)[:8])
