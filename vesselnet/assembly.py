@@ -52,17 +52,14 @@ class NodalPattern:
         row_of[self.free_nodes] = np.arange(self.n_free)
         self.row_of = row_of
         ra, rb = row_of[self.a], row_of[self.b]
-        # stamp order: aa, ab, ba, bb
-        rows = np.concatenate([ra, ra, rb, rb])
-        cols = np.concatenate([ra, rb, ra, rb])
-        keep = (rows >= 0) & (cols >= 0)
+        # stamp order: aa, ab, ba, bb; a stamp is kept when its row and column are free
+        free_a, free_b = ra >= 0, rb >= 0
+        both = free_a & free_b
+        keep = np.concatenate([free_a, both, both, free_b])
         self._keep = keep
-        key = cols[keep] * max(self.n_free, 1) + rows[keep]
-        unique, self._slot = np.unique(key, return_inverse=True)
-        self._nnz = len(unique)
-        self._indices = (unique % max(self.n_free, 1)).astype(np.int32)
-        counts = np.bincount(unique // max(self.n_free, 1), minlength=self.n_free)
-        self._indptr = np.concatenate([[0], np.cumsum(counts)]).astype(np.int32)
+        slot, self._indices, self._indptr = _structure(self.n_free, ra, rb)
+        self._slot = slot[keep]
+        self._nnz = len(self._indices)
 
     def matrix(self, d_aa, d_ab, d_ba, d_bb) -> sp.csc_matrix:
         """The free-node matrix from per-element stamps (real or complex)."""
@@ -96,8 +93,43 @@ class NodalPattern:
         return out[: self.n_nodes]
 
 
+def _structure(n: int, ra: np.ndarray, rb: np.ndarray):
+    """CSC structure of the free-node matrix and the slot of every stamp.
+
+    Entries are the diagonal (every free node) and both orientations of each
+    distinct free-free edge, so parallel elements share their slots.  One sort
+    of the edge keys; the rest is scipy's compiled COO -> CSC conversion.
+    Returns the slots of the stamps aa, ab, ba, bb of every element (-1 where
+    a row or column is not free), the indices and the indptr.
+    """
+    width = max(n, 1)
+    both = (ra >= 0) & (rb >= 0) & (ra != rb)
+    lo = np.minimum(ra[both], rb[both])
+    hi = np.maximum(ra[both], rb[both])
+    edge_key, edge = np.unique(lo * width + hi, return_inverse=True)
+    u = len(edge_key)
+    e_lo, e_hi = edge_key // width, edge_key % width
+    diagonal = np.arange(n)
+    csc = sp.csc_matrix((np.arange(n + 2 * u, dtype=float),
+                         (np.concatenate([diagonal, e_lo, e_hi]),
+                          np.concatenate([diagonal, e_hi, e_lo]))), shape=(n, n))
+    csc.sort_indices()
+    position = np.empty(n + 2 * u, dtype=np.int64)
+    position[csc.data.astype(np.int64)] = np.arange(n + 2 * u)
+    m = len(ra)
+    aa = np.where(ra >= 0, position[np.maximum(ra, 0)], -1) if n else np.full(m, -1)
+    bb = np.where(rb >= 0, position[np.maximum(rb, 0)], -1) if n else np.full(m, -1)
+    ab = np.where((ra >= 0) & (ra == rb), aa, -1)
+    ba = ab.copy()
+    forward = ra[both] < rb[both]
+    ab[both] = position[n + edge.reshape(-1) + np.where(forward, 0, u)]
+    ba[both] = position[n + edge.reshape(-1) + np.where(forward, u, 0)]
+    slot = np.concatenate([aa, ab, ba, bb])
+    return slot, csc.indices.astype(np.int32), csc.indptr.astype(np.int32)
+
+
 def solve_sparse(A: sp.spmatrix, rhs: np.ndarray) -> np.ndarray:
-    """Solve ``A x = rhs`` by SuperLU with symmetric diagonal scaling.
+    """Solve ``A x = rhs`` once by SuperLU with symmetric diagonal scaling.
 
     Parameters
     ----------

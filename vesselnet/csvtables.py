@@ -17,6 +17,7 @@ Examples
 from __future__ import annotations
 
 import csv
+import io
 import re
 import reprlib
 from dataclasses import dataclass, field
@@ -97,17 +98,18 @@ def read_table(path, section: str, units: dict[str, str], *, shown_as: str | Non
 
     try:
         with open(Path(path), newline="", encoding="utf-8-sig") as handle:
-            rows = list(csv.reader(handle))
+            text = handle.read()
+        split = _split_plain(text)
+        rows = None if split else [r for r in csv.reader(io.StringIO(text)) if r and any(c.strip() for c in r)]
     except (OSError, UnicodeDecodeError, csv.Error, ValueError) as exc:
         problem(0, "", f"cannot read the table: {getattr(exc, 'strerror', None) or exc}",
                 "check the path (relative to the YAML file) and that it is UTF-8 CSV")
         return out
-    rows = [r for r in rows if r and any(c.strip() for c in r)]
-    if not rows:
+    if split is None and not rows:
         problem(1, "", "the table is empty", "give a header line and one row per item")
         return out
     spec = SPECS[section]
-    header, body = rows[0], rows[1:]
+    header, body = split if split else (rows[0], rows[1:])
     names, col_units = [], []
     for k, cell in enumerate(header):
         match = _HEADER.fullmatch(cell)
@@ -125,17 +127,23 @@ def read_table(path, section: str, units: dict[str, str], *, shown_as: str | Non
     if section == "vessels" and not ({"radius", "diameter"} & set(names)
                                      or {"radius_in", "radius_out"} <= set(names)):
         problem(1, "header", "missing column 'radius' (or 'diameter')")
-    bad_rows = [i for i, r in enumerate(body) if len(r) != len(header)]
-    for i in bad_rows[:MAX_PROBLEMS_PER_COLUMN]:
-        problem(i + 2, f"row {i + 1}", f"has {len(body[i])} cells, the header has {len(header)}")
+    if split:
+        cells = body
+    else:
+        bad_rows = [i for i, r in enumerate(body) if len(r) != len(header)]
+        for i in bad_rows[:MAX_PROBLEMS_PER_COLUMN]:
+            problem(i + 2, f"row {i + 1}", f"has {len(body[i])} cells, the header has {len(header)}")
+        if out.problems:
+            return out
+        cells = list(zip(*body)) if body else [()] * len(header)
     if out.problems:
         return out
-    cells = list(zip(*body)) if body else [()] * len(header)
     for k, col_name in enumerate(names):
         target, kind, rule = spec[col_name]
         raw = cells[k]
         if rule == "text":
-            out.columns[target] = texts = [c.strip() for c in raw]
+            out.columns[target] = texts = [c.strip() for c in raw] if not split or split.padded \
+                else list(raw)
             needed = col_name in REQUIRED[section]
             bad = [i for i, t in enumerate(texts) if has_control(t) or needed and not t]
             for i in bad[:MAX_PROBLEMS_PER_COLUMN]:
@@ -156,6 +164,7 @@ def read_table(path, section: str, units: dict[str, str], *, shown_as: str | Non
             continue
         with np.errstate(over="ignore"):  # overflow gives inf, refused below
             values = values * scale
+        values.flags.writeable = False       # a fresh column: the model need not copy it
         bad = {"positive": ~(np.isfinite(values) & (values > 0)),
                "any": np.isinf(values),
                "fraction": ~((values >= 0) & (values <= 1)) & ~np.isnan(values)}[rule]
@@ -167,8 +176,51 @@ def read_table(path, section: str, units: dict[str, str], *, shown_as: str | Non
     return out
 
 
+def _split_plain(text: str):
+    """Header and columns of a table without quotes and with full rows, by ``str.split``.
+
+    Returns None (the caller then uses the csv module, which also locates
+    bad rows) when the text has quotes, blank lines, a row of the wrong
+    width or no data.
+    """
+    if '"' in text:
+        return None
+    text = text.replace("\r\n", "\n")
+    if not text.endswith("\n"):
+        text += "\n"
+    first = text.find("\n")
+    header = text[:first].split(",")
+    body = text[first + 1:]
+    n_cols, n_rows = len(header), body.count("\n")
+    if not n_rows or not header[0].strip() or "\n\n" in body or body.startswith("\n") \
+            or "\n" + "," * (n_cols - 1) + "\n" in "\n" + body:
+        return None
+    if len(body) > csv.field_size_limit() and max(map(len, body.split("\n"))) > csv.field_size_limit():
+        return None  # a cell may exceed the csv module's field limit: let it say so
+    cells = body[:-1].replace("\n", ",").split(",")
+    if len(cells) != n_rows * n_cols:
+        return None
+    return _Split(header, [cells[k::n_cols] for k in range(n_cols)],
+                  " " in body or "\t" in body or "\r" in body)
+
+
+class _Split(tuple):
+    """(header, columns) of a plainly split table; ``padded`` when cells may need stripping."""
+
+    def __new__(cls, header, columns, padded):
+        self = super().__new__(cls, (header, columns))
+        self.padded = padded
+        return self
+
+
 def _numbers(raw, report) -> np.ndarray | None:
     """Floats of a column; blanks become NaN; ``report(row, text)`` for bad cells."""
+    try:  # the fast path: every cell a number (a typed 'nan' falls through to be refused)
+        values = np.fromiter(map(float, raw), dtype=float, count=len(raw))
+        if not np.isnan(values).any():
+            return values
+    except ValueError:
+        pass
     texts = [c.strip() or "nan" for c in raw]
     typed_nan = [i for i, c in enumerate(raw) if c.strip().lower().lstrip("+-") == "nan"]
     for i in typed_nan[:MAX_PROBLEMS_PER_COLUMN]:

@@ -24,12 +24,42 @@ from __future__ import annotations
 
 import dataclasses
 import functools
+import itertools
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
 
 NAN = float("nan")
+
+
+class _LazyIndex(dict):
+    """id -> row, built on first lookup (binary input maps no ids at all)."""
+
+    def __init__(self, ids):
+        super().__init__()
+        self._ids = ids
+
+    def __missing__(self, key):
+        if len(self) < len(self._ids):
+            self.update(zip(self._ids, range(len(self._ids))))
+            return self[key]
+        raise KeyError(key)
+
+
+def _rows(index: Mapping[str, int], ids) -> np.ndarray:
+    """Rows of ``ids`` in ``index`` (one C-level pass: ``map`` over the dict)."""
+    return np.fromiter(map(index.__getitem__, map(str, ids)), dtype=np.int64, count=len(ids))
+
+
+def _is_rows(values) -> bool:
+    """Whether a node column already holds rows (an integer array) rather than ids."""
+    return isinstance(values, np.ndarray) and values.dtype.kind in "iu"
+
+
+def _constant(n: int, value, dtype) -> np.ndarray:
+    """A read-only column of one value that takes no memory (a broadcast view)."""
+    return np.broadcast_to(np.array(value, dtype=dtype), (n,))
 
 
 def _frozen_array(values, dtype) -> np.ndarray:
@@ -66,6 +96,11 @@ class _Columns:
     def index(self) -> dict[str, int]:
         """Map from id to row."""
         return {item: row for row, item in enumerate(self.ids)}
+
+    @functools.cached_property
+    def id_array(self) -> np.ndarray:
+        """The ids as a read-only numpy ``str`` array (for writers of large tables)."""
+        return _frozen_array(self.ids, str) if len(self.ids) else np.zeros(0, dtype="U1")
 
     def row(self, i: int) -> dict[str, object]:
         """Item ``i`` as a dict: ``id`` and every column's value (Python scalars)."""
@@ -202,6 +237,9 @@ class Network:
             ``id``, ``from``, ``to`` (node ids) and any :class:`Vessels` column
             by name; ``radius_m`` fills both ends of a taper.  Missing columns
             take their neutral default (NaN, False, Poisson 0.5, stenosis at 0.5).
+            Instead of ``from``/``to``, integer ``from_node``/``to_node`` may
+            give rows of ``nodes["id"]``, which then lists every node in order
+            (bed ``node``/``outflow_node`` may then be rows too, -1 for none).
         nodes : mapping of column name to sequence, optional
             ``id`` and any :class:`Nodes` column; ``position_m`` as (n, 3).
             Nodes are ordered by first use in ``vessels``, then as given here.
@@ -221,16 +259,31 @@ class Network:
         """
         nodes = dict(nodes or {"id": ()})
         beds = dict(beds or {"id": ()})
-        order = dict.fromkeys(str(x) for pair in zip(vessels["from"], vessels["to"]) for x in pair)
-        order.update(dict.fromkeys(str(x) for x in nodes["id"]))
-        node_ids = tuple(order)
-        index = {n: i for i, n in enumerate(node_ids)}
+        given_ids = list(map(str, nodes["id"]))
+        if "from_node" in vessels:     # rows of nodes["id"] already: no mapping
+            node_ids = tuple(given_ids)
+            index = _LazyIndex(node_ids)
+            from_rows = np.asarray(vessels["from_node"], dtype=np.int64)
+            to_rows = np.asarray(vessels["to_node"], dtype=np.int64)
+        else:
+            order = dict.fromkeys(itertools.chain.from_iterable(
+                zip(map(str, vessels["from"]), map(str, vessels["to"]))))
+            order.update(dict.fromkeys(given_ids))
+            node_ids = tuple(order)
+            index = dict(zip(node_ids, range(len(node_ids))))
+            from_rows = _rows(index, vessels["from"])
+            to_rows = _rows(index, vessels["to"])
         n_nodes = len(node_ids)
-        given = np.array([index[str(x)] for x in nodes["id"]], dtype=np.int64)
+        given = np.arange(n_nodes) if "from_node" in vessels else _rows(index, given_ids)
 
         def node_col(key, default, width=None):
             shape = (n_nodes,) if width is None else (n_nodes, width)
-            out = np.full(shape, default, dtype=float if default is not None else np.int64)
+            dtype = float if default is not None else np.int64
+            if key not in nodes or not len(given):
+                return np.broadcast_to(np.array(default, dtype=dtype), shape)
+            if len(given) == n_nodes and "from_node" in vessels:     # every node, in order
+                return np.asarray(nodes[key], dtype=dtype).reshape(shape)
+            out = np.full(shape, default, dtype=dtype)
             if key in nodes and len(given):
                 out[given] = np.asarray(nodes[key], dtype=out.dtype).reshape((len(given),) + shape[1:])
             return out
@@ -247,14 +300,13 @@ class Network:
         def col(key, default, dtype=float):
             if key in vessels:
                 return np.asarray(vessels[key], dtype=dtype)
-            return np.full(n, default, dtype=dtype)
+            return _constant(n, default, dtype)
 
         r_in = col("radius_in_m", NAN) if "radius_in_m" in vessels else col("radius_m", NAN)
         r_out = col("radius_out_m", NAN) if "radius_out_m" in vessels else col("radius_m", NAN)
         vessel_table = Vessels(
-            ids=tuple(str(x) for x in vessels["id"]),
-            from_node=np.array([index[str(x)] for x in vessels["from"]], dtype=np.int64).reshape(n),
-            to_node=np.array([index[str(x)] for x in vessels["to"]], dtype=np.int64).reshape(n),
+            ids=tuple(map(str, vessels["id"])),
+            from_node=from_rows.reshape(n), to_node=to_rows.reshape(n),
             length_m=col("length_m", NAN), radius_in_m=r_in, radius_out_m=r_out,
             wall_thickness_m=col("wall_thickness_m", NAN), wall_modulus_pa=col("wall_modulus_pa", NAN),
             wall_poisson=col("wall_poisson", 0.5), distensible=col("distensible", False, bool),
@@ -270,16 +322,20 @@ class Network:
         def bed_col(key, default, dtype=float):
             if key in beds:
                 return np.asarray(beds[key], dtype=dtype).reshape(m)
-            return np.full(m, default, dtype=dtype)
+            return _constant(m, default, dtype)
 
-        outflow_node = np.array([index[str(x)] if x is not None else -1
-                                 for x in beds.get("outflow_node", [None] * m)], dtype=np.int64)
+        if _is_rows(beds.get("outflow_node")):
+            outflow_node = np.asarray(beds["outflow_node"], dtype=np.int64).reshape(m)
+        else:
+            outflow_node = np.array([index[str(x)] if x is not None else -1
+                                     for x in beds.get("outflow_node", [None] * m)], dtype=np.int64)
         outflow_p = bed_col("outflow_pressure_pa", NAN)
         outflow_p = np.where(outflow_node >= 0, NAN, np.where(np.isnan(outflow_p),
                                                                 venous_pressure_pa, outflow_p))
         bed_table = Beds(
-            ids=tuple(str(x) for x in beds["id"]),
-            node=np.array([index[str(x)] for x in beds.get("node", ())], dtype=np.int64).reshape(m),
+            ids=tuple(map(str, beds["id"])),
+            node=(np.asarray(beds["node"], dtype=np.int64) if _is_rows(beds.get("node"))
+                  else _rows(index, beds.get("node", ()))).reshape(m),
             resistance_pa_s_m3=bed_col("resistance_pa_s_m3", NAN), outflow_pressure_pa=outflow_p,
             outflow_node=outflow_node, share=bed_col("share", NAN),
             windkessel_proximal_pa_s_m3=bed_col("windkessel_proximal_pa_s_m3", NAN),

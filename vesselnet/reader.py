@@ -52,7 +52,10 @@ def load_network(path) -> Network:
     Parameters
     ----------
     path : str or Path
-        The network file; table paths inside it are relative to it.
+        The network file; table paths inside it are relative to it.  A
+        ``.json`` file holds the same document as JSON, a ``.npz`` file the
+        binary columns written by ``vesselnet convert`` (see
+        :mod:`vesselnet.netfiles`); any other name is read as YAML.
 
     Returns
     -------
@@ -65,6 +68,11 @@ def load_network(path) -> Network:
     NetworkSpecError
         With every problem found, each naming file, line, item and fix.
     """
+    suffix = Path(path).suffix.lower()
+    if suffix in (".json", ".npz"):
+        from . import netfiles
+
+        return netfiles.read_json(path) if suffix == ".json" else netfiles.read_npz(path)
     doc = yamlread.load_file(path)
     return read_network(doc, str(path), Path(path).parent)
 
@@ -460,17 +468,23 @@ def read_autoregulation(fr: FieldReader, b, label: str, resistance: float) -> tu
 
 
 def _append(into: dict[str, list], columns: dict[str, object], table_tags, tags) -> None:
-    """Join a table's columns after the YAML items of the same section."""
+    """Join a table's columns after the YAML items of the same section (arrays stay arrays)."""
     offset = len(into["id"])
     n = len(columns.get("id", ()))
     for key in into:
         if key in columns:
-            into[key] = list(into[key]) + list(columns[key])
+            new = columns[key]
         else:
             fill = {"distensible": False, "wall_poisson": 0.5, "stenosis_at": 0.5,
                     "external_pressure_pa": 0.0, "line": 0, "outflow_node": None,
                     "position_m": (NAN, NAN, NAN)}.get(key, NAN)
-            into[key] = list(into[key]) + [fill] * n
+            new = [fill] * n if key in ("outflow_node", "position_m") else np.full(n, fill)
+        if isinstance(new, np.ndarray) and key not in ("id", "from", "to", "node", "outflow_node"):
+            old = np.asarray(into[key]) if len(into[key]) else np.empty((0,) + new.shape[1:],
+                                                                        dtype=new.dtype)
+            into[key] = np.concatenate([old.reshape((-1,) + new.shape[1:]), new]) if offset else new
+        else:
+            into[key] = list(into[key]) + list(new) if offset else list(new)
     for tag, rows in (table_tags or {}).items():
         tags.setdefault(tag, []).extend(int(r) + offset for r in rows)
 
@@ -497,11 +511,12 @@ def check_references(fr: FieldReader, vessels, nodes, beds, origins=None) -> Non
         if a and a == b:
             add("vessels", vessels, i, f"vessels[{i}] '{vid}'",
                 f"the vessel starts and ends at node '{a}' (a self-loop)", "join two different nodes")
-    for i, node_id in enumerate(nodes["id"]):
+    for i, node_id in enumerate(() if touched.issuperset(nodes["id"]) else nodes["id"]):
         if node_id not in touched:
             add("nodes", nodes, i, f"nodes '{node_id}'", "no vessel joins this node",
                 near_miss(node_id, touched) or "join it with a vessel or remove it")
-    for i, bid in enumerate(beds["id"]):
+    bad_beds = not all(touched.issuperset(filter(None, beds[k])) for k in ("node", "outflow_node"))
+    for i, bid in enumerate(beds["id"] if bad_beds else ()):
         for key in ("node", "outflow_node"):
             ref = beds[key][i]
             if ref and ref not in touched:
@@ -510,6 +525,8 @@ def check_references(fr: FieldReader, vessels, nodes, beds, origins=None) -> Non
 
 
 def _duplicates(add, cols, section: str) -> None:
+    if len(set(cols["id"])) == len(cols["id"]):
+        return
     seen: dict[str, int] = {}
     for i, item in enumerate(cols["id"]):
         if item in seen:

@@ -53,7 +53,9 @@ class SteadyResult:
     law_residual : float
         Largest |dP - law(Q)| relative to the largest pressure drop.
     solver : str
-        Which linear solver ran.
+        Which linear solver ran (and its ordering).
+    solver_reason : str
+        Why that solver was chosen.
     warnings : tuple of str
         Things the user should know (flows outside the laminar range, parts cut off).
     vessel_extra : mapping of str to ndarray
@@ -84,6 +86,7 @@ class SteadyResult:
     bed_extra: Mapping[str, np.ndarray] = field(default_factory=dict)
     extra_checks: Mapping[str, object] = field(default_factory=dict)
     condition_estimate: float = float("nan")
+    solver_reason: str = ""
 
     @functools.cached_property
     def inflow_m3_s(self) -> float:

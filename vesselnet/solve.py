@@ -30,6 +30,7 @@ from .assembly import NodalPattern, ScaledFactor
 from .autoregulation import AutoregulatedLaw
 from .elements import ElementGroup, LinearLaw, QuadraticLaw
 from .errors import SolveError
+from .linsolve import Factorization
 from .model import Network
 from .resistance import tapered_resistance
 from .result import SteadyResult, laminar_warnings
@@ -173,7 +174,8 @@ def lesion_coefficients(network: Network, rows: np.ndarray, viscosity_pa_s: np.n
 
 def solve(network: Network, *, viscosity_pa_s: np.ndarray | None = None,
           tolerance: float = DEFAULT_TOLERANCE,
-          max_iterations: int = DEFAULT_MAX_ITERATIONS) -> SteadyResult:
+          max_iterations: int = DEFAULT_MAX_ITERATIONS, method: str = "auto",
+          factorization: Factorization | None = None) -> SteadyResult:
     """Steady pressures and flows of ``network``.
 
     Parameters
@@ -190,10 +192,18 @@ def solve(network: Network, *, viscosity_pa_s: np.ndarray | None = None,
         Convergence: largest nodal imbalance relative to the total inflow.
     max_iterations : int
         Newton step cap.
+    method : {'auto', 'superlu', 'tree', 'cholmod', 'amg'}
+        Linear solver (see :mod:`vesselnet.linsolve`); ``auto`` eliminates
+        trees in O(n) and factorises other networks.
+    factorization : Factorization, optional
+        Reuse the analysis (ordering, symbolic factorisation) of an earlier
+        solve of a network with the same topology (samples of a study);
+        ``method`` is then ignored.
 
     Returns
     -------
     SteadyResult
+        ``solver`` and ``solver_reason`` say which linear solver ran and why.
 
     Raises
     ------
@@ -211,12 +221,15 @@ def solve(network: Network, *, viscosity_pa_s: np.ndarray | None = None,
         viscosity_pa_s = np.full(n_vessels, network.blood.viscosity_pa_s)
     viscosity_pa_s = np.asarray(viscosity_pa_s, dtype=float)
     groups = element_groups(network, viscosity_pa_s)
+    linear = factorization if factorization is not None else Factorization(method)
     start = None
     if any(isinstance(g.law, DistensibleLaw) for g in groups):   # Newton from the rigid solution
         start = solve_groups(network, rigid_groups(groups), viscosity_pa_s=viscosity_pa_s,
-                             tolerance=tolerance, max_iterations=max_iterations).pressure_pa
+                             tolerance=tolerance, max_iterations=max_iterations,
+                             factorization=linear).pressure_pa
     result = solve_groups(network, groups, viscosity_pa_s=viscosity_pa_s, tolerance=tolerance,
-                          max_iterations=max_iterations, initial_pressure_pa=start)
+                          max_iterations=max_iterations, initial_pressure_pa=start,
+                          factorization=linear)
     if start is not None:
         result = dataclasses.replace(result, solver=result.solver + ", from the rigid-wall solution")
     return with_wall_outputs(result, groups)
@@ -225,7 +238,8 @@ def solve(network: Network, *, viscosity_pa_s: np.ndarray | None = None,
 def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s: np.ndarray,
                  tolerance: float = DEFAULT_TOLERANCE,
                  max_iterations: int = DEFAULT_MAX_ITERATIONS,
-                 initial_pressure_pa: np.ndarray | None = None) -> SteadyResult:
+                 initial_pressure_pa: np.ndarray | None = None, method: str = "auto",
+                 factorization: Factorization | None = None) -> SteadyResult:
     """Newton solve of given element groups on ``network``'s nodes (see :func:`solve`).
 
     Parts of the network cut off from every pressure reference (possible
@@ -247,6 +261,7 @@ def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s
     a = np.concatenate([g.a for g in groups])
     b = np.concatenate([g.b for g in groups])
     pattern = NodalPattern(n, a, b, free)
+    linear = factorization if factorization is not None else Factorization(method)
     injection = np.where(np.isnan(nodes.inflow_m3_s) | cut_off, 0.0, nodes.inflow_m3_s)
     pressure = initial_pressure(network, groups, fixed) if initial_pressure_pa is None else \
         np.where(fixed, nodes.pressure_pa, np.nan_to_num(initial_pressure_pa))
@@ -272,7 +287,8 @@ def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s
         stalled = stalled + 1 if history and worst > 0.99 * history[-1] else 0
         history.append(worst)
         if iterations > 0 and worst <= tolerance or not free.any():
-            if factor is not None and worst > 0:  # polish: one refinement step, same factor
+            careful = pattern.n_free <= CAREFUL_MAX_NODES or worst > 1e-12
+            if factor is not None and worst > 0 and careful:  # polish: one refinement step
                 step = factor.solve(-imbalance[free])
                 trial = add_step(pressure, low, np.flatnonzero(free), step)
                 polished = evaluate(*trial)
@@ -284,21 +300,52 @@ def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s
                                   stalled=stalled >= STALL_STEPS)
         J = pattern.matrix(dqa, dqb, -dqa, -dqb)
         try:
-            factor = ScaledFactor(J)
-        except SolveError as exc:
-            raise SolveError(f"{exc}; or some part's pressure level is set by nothing (for example "
-                             "a prescribed inflow with every bed holding its autoregulated flow): "
-                             "give it a fixed pressure or a fixed bed") from None
-        step = factor.solve(-imbalance[free])
+            step = linear.solve(J, -imbalance[free])
+        except (RuntimeError, SolveError) as exc:  # SuperLU: exactly singular
+            raise SolveError(f"the Newton system is singular ({exc}); some part's pressure level is "
+                             "set by nothing (for example a prescribed inflow with every bed holding "
+                             "its autoregulated flow): give it a fixed pressure or a fixed bed") from None
+        factor = LastJacobian(J, linear)
         (pressure, low), q, dqa, dqb, imbalance = line_search((pressure, low), step, free, evaluate,
                                                               worst, scale)
         iterations += 1
         if not np.isfinite(pressure[free]).all():
             raise SolveError("the linear solve returned non-finite pressures; the system is "
                              "singular or too badly conditioned")
-    condition = factor.condition_estimate() if factor is not None else float("nan")
+    careful = pattern.n_free <= CAREFUL_MAX_NODES or history[-1] > 1e-12
+    condition = factor.condition_estimate() if factor is not None and careful else float("nan")
     return finish(network, groups, pressure, q, imbalance, free, fixed, cut_off, viscosity_pa_s,
-                  iterations, history, condition=condition)
+                  iterations, history, condition=condition, linear=linear)
+
+
+CAREFUL_MAX_NODES = 200_000
+"""Up to this many free nodes every solve is polished by one refinement step and its
+condition estimated (an extra factorisation each); larger networks only when the
+residual is not already at rounding level, so that 10^6-segment solves stay fast."""
+
+
+class LastJacobian:
+    """The last Newton matrix: one SuperLU factor of its scaled form, made on first
+    use, serves the refinement step and the condition estimate (the step solver
+    itself, ``linear``, keeps its own analysis for the next matrix)."""
+
+    def __init__(self, matrix, linear: Factorization):
+        self.matrix = matrix
+        self.linear = linear
+        self._factor: ScaledFactor | None = None
+
+    @property
+    def factor(self) -> ScaledFactor:
+        if self._factor is None:
+            self._factor = ScaledFactor(self.matrix)
+        return self._factor
+
+    def solve(self, rhs: np.ndarray) -> np.ndarray:
+        return self.factor.solve(rhs)
+
+    def condition_estimate(self) -> float:
+        """See :meth:`vesselnet.assembly.ScaledFactor.condition_estimate`."""
+        return self.factor.condition_estimate()
 
 
 def group_flows(group: ElementGroup, high: np.ndarray, low: np.ndarray):
@@ -430,7 +477,8 @@ def non_convergence(network: Network, imbalance, free, history, factor=None,
 
 
 def finish(network, groups, pressure, q, imbalance, free, fixed, cut_off, viscosity_pa_s,
-           iterations, history, condition=float("nan")) -> SteadyResult:
+           iterations, history, *, condition=float("nan"),
+           linear: Factorization | None = None) -> SteadyResult:
     """Map element flows back to vessels and beds and check the invariants.
 
     ``condition`` is the condition estimate of the last scaled Jacobian.
@@ -463,8 +511,9 @@ def finish(network, groups, pressure, q, imbalance, free, fixed, cut_off, viscos
         boundary_inflow_m3_s=boundary, vessel_viscosity_pa_s=viscosity_pa_s,
         vessel_resistance_pa_s_m3=effective, iterations=iterations,
         residual_history=tuple(history), mass_balance=mass_balance,
-        law_residual=law_error / drop_scale, solver="superlu (MMD_AT_PLUS_A ordering)",
-        condition_estimate=condition)
+        law_residual=law_error / drop_scale,
+        solver=linear.description if linear else "superlu (MMD_AT_PLUS_A ordering)",
+        solver_reason=linear.reason if linear else "", condition_estimate=condition)
     warnings = laminar_warnings(network, result.vessel_reynolds)
     if cut_off.any():
         names = ", ".join(f"'{network.nodes.ids[i]}'" for i in np.flatnonzero(cut_off)[:8])

@@ -110,7 +110,8 @@ def solve_report(result: SteadyResult) -> str:
     parts = [result.summary(), "", "Beds (largest share first)", bed_table_text(result), "",
              "Vessels", vessel_table_text(result), "", "Nodes", node_table_text(result), "",
              f"checks: mass balance {result.mass_balance:.1e}, law residual {result.law_residual:.1e},"
-             f" {result.iterations} Newton step(s), solver {result.solver}"]
+             f" {result.iterations} Newton step(s), solver {result.solver}"
+             + (f": {result.solver_reason}" if result.solver_reason else "")]
     rheology = result.extra_checks.get("rheology")
     if rheology:
         parts.append(f"rheology: viscosity {rheology['viscosity_law']}, separation "

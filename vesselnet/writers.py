@@ -153,6 +153,7 @@ def checks_json(result: SteadyResult) -> dict:
     """The ``checks`` map: mass balance, law residual, iterations, solver, residual history."""
     checks = {"mass_balance": number(result.mass_balance), "law_residual": number(result.law_residual),
               "iterations": int(result.iterations), "solver": result.solver,
+              "solver_reason": result.solver_reason,
               "residual_history": [number(h) for h in result.residual_history],
               "condition": number(result.condition_estimate)}
     checks.update({key: _json_ready(value) for key, value in result.extra_checks.items()})
@@ -220,8 +221,8 @@ def _dump(value, depth: int) -> str:
     return json.dumps(value, ensure_ascii=False, allow_nan=False)
 
 
-def atomic_write(path, text: str) -> None:
-    """Write ``text`` to ``path`` through a temporary file and a rename.
+def atomic_write(path, text: str | bytes) -> None:
+    """Write ``text`` (or UTF-8 ``bytes``) to ``path`` through a temporary file and a rename.
 
     An error or an interrupt leaves either the old file or none, never a
     partial one (the temporary file is removed).  The new file gets the old
@@ -248,7 +249,9 @@ def atomic_write_many(texts) -> None:
             handle, tmp = tempfile.mkstemp(dir=path.parent or ".", prefix=f".{path.name}.",
                                            suffix=".tmp")
             temporary.append((tmp, path))
-            with os.fdopen(handle, "w", encoding="utf-8", newline="") as out:
+            binary = isinstance(text, bytes)
+            with os.fdopen(handle, "wb" if binary else "w", **({} if binary else
+                           {"encoding": "utf-8", "newline": ""})) as out:
                 out.write(text)
                 out.flush()
                 os.fsync(out.fileno())
@@ -287,36 +290,135 @@ def spreadsheet_safe(cell: str) -> str:
 
 def csv_text(ids, text_columns: dict[str, list], columns: dict[str, np.ndarray],
              units: dict[str, str]) -> str:
-    """One CSV table: ``id`` first, then text columns, then numbers with ``name[unit]`` headers."""
+    """One CSV table: ``id`` first, then text columns, then numbers with ``name[unit]`` headers.
+
+    Built a column at a time (:mod:`vesselnet.numtext`), so 10^6 rows take
+    seconds, not minutes; cells are those of ``csv.writer`` with
+    :func:`number` and :func:`spreadsheet_safe` applied.  Text columns may be
+    lists of str or numpy arrays of str or UTF-8 bytes.
+    """
+    return _csv_bytes(ids, text_columns, columns, units).decode("utf-8")
+
+
+def _csv_bytes(ids, text_columns, columns, units) -> bytes:
+    from .numtext import join_rows
+
     buffer = io.StringIO()
     writer = csv.writer(buffer, lineterminator="\n")
     header = ["id"] + list(text_columns)
     header += [f"{name}[{units[name]}]" if units.get(name) else name for name in columns]
     writer.writerow(header)
-    for i, item in enumerate(ids):
-        row = [spreadsheet_safe(str(item))] + [spreadsheet_safe(str(c[i])) for c in text_columns.values()]
-        for values in columns.values():
-            value = number(values[i])
-            row.append("" if value is None else str(value).lower() if isinstance(value, bool) else repr(value))
-        writer.writerow(row)
-    return buffer.getvalue()
+    cells = [_text_cells(ids)] + [_text_cells(c) for c in text_columns.values()]
+    cells += [_number_cells(values) for values in columns.values()]
+    head = buffer.getvalue().encode("utf-8")
+    if not len(cells[0]):
+        return head
+    return head + join_rows(cells, encoded=True)
+
+
+_RISKY_START = (b"=", b"+", b"-", b"@", b"\t", b"\r")
+_NEEDS_QUOTES = (b",", b'"', b"\r", b"\n")
+
+
+def _text_cells(values):
+    """Text cells made spreadsheet-safe and quoted as ``csv.writer`` quotes them."""
+    from .numtext import as_bytes
+
+    cells = as_bytes(values)
+    if not len(cells):
+        return cells
+    risky = np.zeros(len(cells), dtype=bool)
+    for prefix in _RISKY_START:
+        risky |= np.strings.startswith(cells, prefix)
+    for char in _NEEDS_QUOTES:
+        risky |= np.strings.find(cells, char) >= 0
+    rows = np.flatnonzero(risky)
+    if len(rows):
+        fixed = [_quoted(spreadsheet_safe(x.decode("utf-8"))).encode("utf-8")
+                 for x in cells[rows].tolist()]
+        width = max(cells.dtype.itemsize, max(map(len, fixed)))
+        cells = cells.astype(f"S{width}")
+        cells[rows] = fixed
+    return cells
+
+
+def _quoted(cell: str) -> str:
+    return '"' + cell.replace('"', '""') + '"' if any(c in cell for c in ',"\r\n') else cell
+
+
+def _number_cells(values):
+    """Cells of one numeric column: :func:`number` written as ``repr``; NaN and infinities empty."""
+    from .numtext import significant_bytes
+
+    values = np.asarray(values)
+    if values.dtype.kind == "b":
+        return np.where(values, b"true", b"false")
+    if values.dtype.kind in "iu":
+        return values.astype("S")
+    if values.dtype.kind == "f":
+        return significant_bytes(values, SIGNIFICANT_DIGITS)
+    out = []
+    for x in values.tolist():
+        value = number(x)
+        out.append("" if value is None else str(value).lower() if isinstance(value, bool) else repr(value))
+    return out
 
 
 def write_tables(result: SteadyResult, directory) -> list[Path]:
     """Write ``nodes.csv``, ``vessels.csv`` and ``beds.csv`` (SPEC section 5) into ``directory``."""
+    from .numtext import as_bytes
+
     directory = Path(directory)
     directory.mkdir(parents=True, exist_ok=True)
     kinds = {name: kind for name, _, kind in NODE_COLUMNS + VESSEL_COLUMNS + BED_COLUMNS}
     kinds.update({extra_name(k): v for k, v in EXTRA_KINDS.items()})
     units = {name: DISPLAY_UNITS[kind] for name, kind in kinds.items() if kind}
+    net = result.network
+    node_ids = as_bytes(net.nodes.id_array)   # once: from, to and node are gathers of it
     nodes = result.node_table()
-    vessels = result.vessel_table()
     beds = result.bed_table()
-    texts = {
-        "nodes.csv": csv_text(nodes["id"], {}, _converted(nodes, NODE_COLUMNS), units),
-        "vessels.csv": csv_text(vessels["id"], {"from": list(vessels["from"]), "to": list(vessels["to"])},
-                                vessel_columns(result), units),
-        "beds.csv": csv_text(beds["id"], {"node": list(beds["node"])}, bed_columns(result), units),
+    tables = {
+        "nodes.csv": (node_ids, {}, _converted(nodes, NODE_COLUMNS)),
+        "vessels.csv": (as_bytes(net.vessels.id_array), {"from": node_ids[net.vessels.from_node],
+                                                     "to": node_ids[net.vessels.to_node]},
+                        vessel_columns(result)),
+        "beds.csv": (as_bytes(net.beds.id_array), {"node": node_ids[net.beds.node]},
+                     bed_columns(result)),
     }
-    atomic_write_many({directory / name: text for name, text in texts.items()})
-    return [directory / name for name in texts]
+    texts = {directory / name: _csv_bytes(ids, text, numbers, units)
+             for name, (ids, text, numbers) in tables.items()}
+    atomic_write_many(texts)
+    return list(texts)
+
+
+def write_arrays(result: SteadyResult, path) -> Path:
+    """Write every per-node, per-vessel and per-bed result (SI) into one ``.npz`` file.
+
+    The binary counterpart of :func:`write_tables` for large networks.  Keys
+    are ``<table>_<column>`` of :meth:`~vesselnet.result.SteadyResult.node_table`,
+    ``vessel_table`` and ``bed_table`` (``vessel_flow_m3_s``, ``node_pressure_pa``,
+    ``bed_share`` ...), with ids as ``node_id``, ``vessel_id``, ``bed_id`` and
+    node references as rows of ``node_id`` (``vessel_from_node``,
+    ``vessel_to_node``, ``bed_node``); ``checks`` holds the JSON checks map as
+    text.  Read back with ``numpy.load(path)``.
+    """
+    path = Path(path)
+    net = result.network
+    arrays = {"node_id": net.nodes.id_array, "vessel_id": net.vessels.id_array,
+              "bed_id": net.beds.id_array,
+              "vessel_from_node": net.vessels.from_node, "vessel_to_node": net.vessels.to_node,
+              "bed_node": net.beds.node}
+    for prefix, table in (("node", result.node_table()), ("vessel", result.vessel_table()),
+                          ("bed", result.bed_table())):
+        for key, values in table.items():
+            if key not in ("id", "from", "to", "node"):
+                arrays[f"{prefix}_{key}"] = np.asarray(values)
+    arrays["checks"] = np.array(json.dumps(checks_json(result)))
+    tmp = path.with_name(f".{path.name}.tmp.npz")
+    try:
+        np.savez(tmp, **arrays)
+        os.replace(tmp, path)
+    finally:
+        if tmp.exists():
+            tmp.unlink()
+    return path

@@ -27,6 +27,7 @@ COMMANDS = (
     "sensitivity",
     "uncertainty",
     "sweep",
+    "convert",
 )
 """Modules of this package that define a command, in help order."""
 

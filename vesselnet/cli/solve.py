@@ -6,9 +6,12 @@ from __future__ import annotations
 def add_parser(sub) -> None:
     p = sub.add_parser("solve", help="steady pressures, flows, bed shares and wall shear stress",
                        description="Solve the steady pressure-flow problem of a network file.")
-    p.add_argument("file", help="the network YAML file")
+    p.add_argument("file", help="the network file (.yaml, .json or .npz)")
     p.add_argument("--json", action="store_true", help="print the JSON result (and nothing else) on stdout")
     p.add_argument("-o", "--output", metavar="DIR", help="write nodes.csv, vessels.csv and beds.csv into DIR")
+    p.add_argument("--solver", default="auto", choices=("auto", "superlu", "tree", "cholmod", "amg"),
+                   help="linear solver (default auto: O(n) elimination for trees, else CHOLMOD when "
+                        "installed, else SuperLU); the result says which ran and why")
     rheology = p.add_argument_group("microvascular rheology (networks with a viscosity or separation law)")
     rheology.add_argument("--relaxation", type=float, metavar="W", default=None,
                           help="under-relaxation of the hematocrit update, in (0, 1] (default 0.5)")
@@ -39,7 +42,7 @@ def run(args) -> int:
     if options or needs_rheology(network):
         result = solve_rheology(network, **options)
     else:
-        result = solve(network)
+        result = solve(network, method=args.solver)
     if args.output:
         paths = writers.write_tables(result, args.output)
     if args.json:
