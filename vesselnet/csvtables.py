@@ -53,6 +53,7 @@ SPECS: dict[str, dict[str, tuple[str, str, str]]] = {
         "inflow": ("inflow_m3_s", "flow", "any"), "x": ("x", "length", "any"),
         "y": ("y", "length", "any"), "z": ("z", "length", "any"),
         "target_pressure": ("target_pressure_pa", "pressure", "any"),
+        "hematocrit": ("hematocrit", "fraction", "fraction"),
     },
 }
 REQUIRED = {"vessels": ("id", "from", "to", "length"), "beds": ("id", "node", "resistance"),

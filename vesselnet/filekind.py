@@ -10,12 +10,14 @@ Examples
 
 from __future__ import annotations
 
-KIND_KEYS = (("scenarios", "scenario"), ("candidates", "plan"))
+KIND_KEYS = (("scenarios", "scenario"), ("candidates", "plan"), ("uncertainty", "uncertainty"),
+             ("parameters", "sweep"), ("cases", "sweep"), ("shares", "targets"),
+             ("pressures", "targets"), ("flows", "targets"))
 """A top-level key and the file kind it marks; anything else is a network file."""
 
 
 def file_kind(doc) -> str:
-    """``scenario``, ``plan`` or ``network`` for a parsed document."""
+    """``scenario``, ``plan``, ``uncertainty``, ``sweep``, ``targets`` or ``network``."""
     if isinstance(doc, dict):
         for key, kind in KIND_KEYS:
             if key in doc:

@@ -130,7 +130,8 @@ class Nodes(_Columns):
 
     Columns: fixed ``pressure_pa`` (NaN: free), prescribed mean ``inflow_m3_s``
     into the network (NaN: none), ``position_m`` (n, 3; NaN: not given),
-    calibration ``target_pressure_pa`` (NaN: none), the source ``line``.
+    calibration ``target_pressure_pa`` (NaN: none), the source ``line``, the
+    discharge ``hematocrit`` of blood entering there (NaN: the blood's).
     ``inflow_waveforms`` maps a node row to its pulsatile inflow description.
     """
 
@@ -140,6 +141,7 @@ class Nodes(_Columns):
     position_m: np.ndarray
     target_pressure_pa: np.ndarray
     line: np.ndarray
+    hematocrit: np.ndarray
     inflow_waveforms: Mapping[int, Mapping[str, object]] = field(default_factory=dict)
 
 
@@ -290,7 +292,7 @@ class Network:
             ids=node_ids, pressure_pa=node_col("pressure_pa", NAN),
             inflow_m3_s=node_col("inflow_m3_s", NAN), position_m=node_col("position_m", NAN, 3),
             target_pressure_pa=node_col("target_pressure_pa", NAN),
-            line=node_col("line", 0).astype(np.int64),
+            line=node_col("line", 0).astype(np.int64), hematocrit=node_col("hematocrit", NAN),
             inflow_waveforms={index[k]: v for k, v in (inflow_waveforms or {}).items()})
 
         n = len(vessels["id"])

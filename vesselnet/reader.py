@@ -37,7 +37,7 @@ TOP_KEYS = ("vesselnet", "name", "description", "units", "blood", "venous_pressu
 VESSEL_KEYS = ("id", "from", "to", "length", "radius", "diameter", "wall", "tags", "stenosis")
 WALL_KEYS = ("thickness", "modulus", "poisson", "distensible", "external_pressure")
 STENOSIS_KEYS = ("reduction", "length", "at")
-NODE_KEYS = ("pressure", "inflow", "position", "target_pressure")
+NODE_KEYS = ("pressure", "inflow", "position", "target_pressure", "hematocrit")
 BED_KEYS = ("id", "node", "resistance", "outflow_pressure", "outflow_node", "share", "windkessel",
             "autoregulation")
 BLOOD_KEYS = ("viscosity", "density", "hematocrit", "separation")
@@ -291,7 +291,7 @@ def read_tags(fr: FieldReader, v, label: str) -> list[str]:
 def read_nodes(fr: FieldReader, doc, base_dir=Path(".")) -> tuple[dict[str, list], dict[str, dict]]:
     """The ``nodes:`` mapping as SI columns, and pulsatile inflow waveforms by node id."""
     cols = {k: [] for k in ("id", "pressure_pa", "inflow_m3_s", "position_m",
-                            "target_pressure_pa", "line")}
+                            "target_pressure_pa", "line", "hematocrit")}
     waveforms: dict[str, dict] = {}
     nodes = fr.mapping(doc, "nodes", "nodes")
     for node_id, props in (nodes or {}).items():
@@ -320,6 +320,7 @@ def read_nodes(fr: FieldReader, doc, base_dir=Path(".")) -> tuple[dict[str, list
                    "keep one")
         cols["position_m"].append(read_position(fr, props, label))
         cols["target_pressure_pa"].append(fr.quantity(props, "target_pressure", "pressure", label))
+        cols["hematocrit"].append(fr.quantity(props, "hematocrit", "fraction", label, below_one=True))
         cols["line"].append(props.line)
     return cols, waveforms
 

@@ -60,6 +60,11 @@ class SteadyResult:
         Things the user should know (flows outside the laminar range, parts cut off).
     vessel_extra : mapping of str to ndarray
         Further per-vessel results of other physics (for example ``hematocrit``).
+    bed_extra : mapping of str to ndarray
+        Further per-bed results (for example ``red_cell_delivery_m3_s``).
+    extra_checks : mapping of str to object
+        Convergence records of other physics (for example ``rheology``), JSON-ready
+        values (numbers, text, lists, mappings), written under ``checks``.
     """
 
     network: Network
@@ -76,6 +81,8 @@ class SteadyResult:
     solver: str
     warnings: tuple[str, ...] = ()
     vessel_extra: Mapping[str, np.ndarray] = field(default_factory=dict)
+    bed_extra: Mapping[str, np.ndarray] = field(default_factory=dict)
+    extra_checks: Mapping[str, object] = field(default_factory=dict)
     solver_reason: str = ""
 
     @functools.cached_property
@@ -164,13 +171,15 @@ class SteadyResult:
         return table
 
     def bed_table(self) -> dict[str, np.ndarray]:
-        """Per-bed columns (SI): flow, share, node pressure, perfusion pressure."""
+        """Per-bed columns (SI): flow, share, node pressure, perfusion pressure, extras."""
         beds = self.network.beds
         nodes = np.array(self.network.nodes.ids, dtype=object)
-        return {"id": np.array(beds.ids, dtype=object), "node": nodes[beds.node],
-                "flow_m3_s": self.bed_flow_m3_s, "share": self.bed_share,
-                "pressure_pa": self.bed_pressure_pa,
-                "perfusion_pressure_pa": self.bed_perfusion_pressure_pa}
+        table = {"id": np.array(beds.ids, dtype=object), "node": nodes[beds.node],
+                 "flow_m3_s": self.bed_flow_m3_s, "share": self.bed_share,
+                 "pressure_pa": self.bed_pressure_pa,
+                 "perfusion_pressure_pa": self.bed_perfusion_pressure_pa}
+        table.update(self.bed_extra)
+        return table
 
     def summary(self) -> str:
         """One line: inflow, beds, largest share, mass balance.
@@ -185,7 +194,7 @@ class SteadyResult:
         """
         inflow = self.inflow_m3_s * 6e7
         beds = self.network.beds
-        text = f"{self.network.name}: inflow {inflow:.1f} mL/min, {len(beds)} bed"
+        text = f"{self.network.name}: inflow {inflow:.5g} mL/min, {len(beds)} bed"
         text += "s" if len(beds) != 1 else ""
         if len(beds):
             k = int(np.nanargmax(self.bed_share))

@@ -171,8 +171,11 @@ def solve(network: Network, *, viscosity_pa_s: np.ndarray | None = None,
     network : Network
         A checked network (see :func:`vesselnet.reader.load_network`).
     viscosity_pa_s : ndarray, shape (n_vessels,), optional
-        Viscosity per vessel; default the blood's constant viscosity.  This
-        is where size- and hematocrit-dependent laws plug in.
+        Viscosity per vessel.  Default: the blood's constant viscosity, or,
+        when ``network.blood`` names a viscosity or phase-separation law, the
+        coupled solve :func:`vesselnet.rheology.solve_rheology` with its
+        default options (``tolerance`` and ``max_iterations`` then apply to
+        each of its flow solves).
     tolerance : float
         Convergence: largest nodal imbalance relative to the total inflow.
     max_iterations : int
@@ -197,6 +200,11 @@ def solve(network: Network, *, viscosity_pa_s: np.ndarray | None = None,
         solution lost accuracy.
     """
     n_vessels = len(network.vessels)
+    if viscosity_pa_s is None and (network.blood.viscosity_law != "constant"
+                                   or network.blood.separation != "none"):
+        from .rheology import solve_rheology  # imports this module: import late
+        return solve_rheology(network, newton_tolerance=tolerance,
+                              newton_max_iterations=max_iterations, method=method)
     if viscosity_pa_s is None:
         viscosity_pa_s = np.full(n_vessels, network.blood.viscosity_pa_s)
     viscosity_pa_s = np.asarray(viscosity_pa_s, dtype=float)

@@ -68,8 +68,13 @@ def bed_table_text(result: SteadyResult) -> str:
     perfusion = from_si(result.bed_perfusion_pressure_pa, "pressure", "mmHg")
     rows = [[beds.ids[i], flow[i], 100 * result.bed_share[i], pressure[i], perfusion[i],
              result.network.nodes.ids[beds.node[i]]] for i in order]
-    return format_table(["bed", f"flow [{DISPLAY_UNITS['flow']}]", "share [%]", "pressure [mmHg]",
-                         "perfusion [mmHg]", "node"], rows)
+    headers = ["bed", f"flow [{DISPLAY_UNITS['flow']}]", "share [%]", "pressure [mmHg]",
+               "perfusion [mmHg]", "node"]
+    if "red_cell_delivery_m3_s" in result.bed_extra:
+        cells = from_si(result.bed_extra["red_cell_delivery_m3_s"], "flow", DISPLAY_UNITS["flow"])
+        rows = [row + [cells[i]] for row, i in zip(rows, order)]
+        headers.append(f"red cells [{DISPLAY_UNITS['flow']}]")
+    return format_table(headers, rows)
 
 
 def vessel_table_text(result: SteadyResult, limit: int = MAX_ROWS) -> str:
@@ -80,9 +85,15 @@ def vessel_table_text(result: SteadyResult, limit: int = MAX_ROWS) -> str:
     rows = [[v.ids[i], flow[i], drop[i], result.vessel_mean_velocity_m_s[i], result.vessel_wss_pa[i],
              result.vessel_reynolds[i], "reversed" if result.vessel_reversed[i] else ""]
             for i in range(len(v))]
+    headers = ["vessel", f"flow [{DISPLAY_UNITS['flow']}]", "dP [mmHg]", "velocity [m/s]",
+               "wss [Pa]", "Re", ""]
+    if "hematocrit" in result.vessel_extra:
+        viscosity = from_si(result.vessel_viscosity_pa_s, "viscosity", DISPLAY_UNITS["viscosity"])
+        rows = [row[:-1] + [result.vessel_extra["hematocrit"][i], viscosity[i], row[-1]]
+                for i, row in enumerate(rows)]
+        headers[-1:] = ["HD", f"viscosity [{DISPLAY_UNITS['viscosity']}]", ""]
     rows, more = _truncated(rows, limit)
-    text = format_table(["vessel", f"flow [{DISPLAY_UNITS['flow']}]", "dP [mmHg]", "velocity [m/s]",
-                         "wss [Pa]", "Re", ""], rows, digits=2)
+    text = format_table(headers, rows, digits=2)
     return text + ("\n" + more if more else "")
 
 
@@ -101,6 +112,14 @@ def solve_report(result: SteadyResult) -> str:
              f"checks: mass balance {result.mass_balance:.1e}, law residual {result.law_residual:.1e},"
              f" {result.iterations} Newton step(s), solver {result.solver}"
              + (f": {result.solver_reason}" if result.solver_reason else "")]
+    rheology = result.extra_checks.get("rheology")
+    if rheology:
+        parts.append(f"rheology: viscosity {rheology['viscosity_law']}, separation "
+                     f"{rheology['separation']}, {rheology['iterations']} coupled iteration(s), "
+                     f"hematocrit change {rheology['hematocrit_residual']:.1e}, flow change "
+                     f"{rheology['flow_residual']:.1e} (tolerance {rheology['tolerance']:g}, "
+                     f"relaxation {rheology['relaxation']:g}), {rheology['plasma_only_vessels']} "
+                     "plasma-only vessel(s)")
     parts[8:8] = wall_report_parts(result)
     parts += [f"warning: {w}" for w in result.warnings]
     return "\n".join(parts)

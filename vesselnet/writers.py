@@ -46,6 +46,7 @@ BED_COLUMNS = (("flow", "flow_m3_s", "flow"), ("share", "share", None),
                ("pressure", "pressure_pa", "pressure"),
                ("perfusion_pressure", "perfusion_pressure_pa", "pressure"))
 EXTRA_KINDS = {"hematocrit": None, "tube_hematocrit": None, "red_cell_flux_m3_s": "flow",
+               "red_cell_delivery_m3_s": "flow",
                "lumen_radius_m": "radius", "wall_strain": None, "wall_stress_pa": "stress",
                "volume_m3": "volume"}
 SI_SUFFIXES = ("_m3_s", "_m3", "_pa", "_m")
@@ -117,15 +118,22 @@ def nodes_json(result: SteadyResult) -> list[dict]:
     return records
 
 
-def vessel_columns(result: SteadyResult) -> dict[str, np.ndarray]:
-    """Per-vessel output columns in display units, extras included."""
-    table = result.vessel_table()
-    cols = _converted(table, VESSEL_COLUMNS)
-    for key, values in result.vessel_extra.items():
+def _with_extras(cols: dict[str, np.ndarray], extra) -> dict[str, np.ndarray]:
+    for key, values in extra.items():
         kind = EXTRA_KINDS.get(key)
         name = extra_name(key)
         cols[name] = from_si(values, kind, DISPLAY_UNITS[kind]) if kind else values
     return cols
+
+
+def vessel_columns(result: SteadyResult) -> dict[str, np.ndarray]:
+    """Per-vessel output columns in display units, extras included."""
+    return _with_extras(_converted(result.vessel_table(), VESSEL_COLUMNS), result.vessel_extra)
+
+
+def bed_columns(result: SteadyResult) -> dict[str, np.ndarray]:
+    """Per-bed output columns in display units, extras included."""
+    return _with_extras(_converted(result.bed_table(), BED_COLUMNS), result.bed_extra)
 
 
 def vessels_json(result: SteadyResult) -> list[dict]:
@@ -136,18 +144,28 @@ def vessels_json(result: SteadyResult) -> list[dict]:
 
 
 def beds_json(result: SteadyResult) -> list[dict]:
-    """The ``beds`` list: id, node, flow, share, pressure, perfusion pressure."""
+    """The ``beds`` list: id, node, flow, share, pressure, perfusion pressure, extras."""
     table = result.bed_table()
-    return _records(table["id"].tolist(), {"node": table["node"].tolist()},
-                    _converted(table, BED_COLUMNS))
+    return _records(table["id"].tolist(), {"node": table["node"].tolist()}, bed_columns(result))
 
 
 def checks_json(result: SteadyResult) -> dict:
     """The ``checks`` map: mass balance, law residual, iterations, solver, residual history."""
-    return {"mass_balance": number(result.mass_balance), "law_residual": number(result.law_residual),
-            "iterations": int(result.iterations), "solver": result.solver,
-            "solver_reason": result.solver_reason,
-            "residual_history": [number(h) for h in result.residual_history]}
+    checks = {"mass_balance": number(result.mass_balance), "law_residual": number(result.law_residual),
+              "iterations": int(result.iterations), "solver": result.solver,
+              "solver_reason": result.solver_reason,
+              "residual_history": [number(h) for h in result.residual_history]}
+    checks.update({key: _json_ready(value) for key, value in result.extra_checks.items()})
+    return checks
+
+
+def _json_ready(value):
+    """Numbers through :func:`number`, lists and mappings item by item, text as is."""
+    if isinstance(value, dict):
+        return {str(k): _json_ready(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple, np.ndarray)):
+        return [_json_ready(v) for v in value]
+    return value if isinstance(value, str) or value is None else number(value)
 
 
 def result_json(result: SteadyResult) -> dict:
@@ -337,7 +355,7 @@ def write_tables(result: SteadyResult, directory) -> list[Path]:
                                                      "to": node_ids[net.vessels.to_node]},
                         vessel_columns(result)),
         "beds.csv": (as_bytes(net.beds.id_array), {"node": node_ids[net.beds.node]},
-                     _converted(beds, BED_COLUMNS)),
+                     bed_columns(result)),
     }
     paths = []
     for name, (ids, text, numbers) in tables.items():

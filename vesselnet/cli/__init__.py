@@ -21,6 +21,12 @@ COMMANDS = (
     "pulse",
     "windkessel",
     "view",
+    "grafts",
+    "generate",
+    "calibrate",
+    "sensitivity",
+    "uncertainty",
+    "sweep",
     "convert",
 )
 """Modules of this package that define a command, in help order."""

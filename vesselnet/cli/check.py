@@ -1,4 +1,4 @@
-"""``vesselnet check FILE``: validate a network or scenario file."""
+"""``vesselnet check FILE``: validate a network, scenario or plan file."""
 
 from __future__ import annotations
 
@@ -7,6 +7,8 @@ def add_parser(sub) -> None:
     p = sub.add_parser("check", help="validate a network, scenario or plan file",
                        description="Validate a file; every problem is reported with its line.")
     p.add_argument("file", help="the YAML file")
+    p.add_argument("--network", metavar="NETWORK",
+                   help="the network an uncertainty or targets file is checked against")
     p.set_defaults(run=run)
 
 
@@ -17,10 +19,21 @@ def run(args) -> int:
     from ..reader import load_network
     from .steady import emit
 
-    if file_kind_of(args.file) == "scenario":
+    kind = file_kind_of(args.file)
+    if kind == "scenario":
         from ..scenarios import check_scenario_file
 
         emit(check_scenario_file(args.file))
+        return 0
+    if kind == "plan":
+        from ..planfile import check_plan_file
+
+        emit(check_plan_file(args.file))
+        return 0
+    if kind in ("sweep", "uncertainty", "targets"):
+        from .checkinputs import check_input_file
+
+        emit(check_input_file(args.file, kind, getattr(args, "network", None)))
         return 0
     net = load_network(args.file)
     fixed = int((~np.isnan(net.nodes.pressure_pa)).sum())
