@@ -77,7 +77,7 @@ def test_every_method_matches_dense_lapack(method, topology, seed):
 @pytest.mark.parametrize("topology, expected", [("tree", True), ("local", False), ("long", False)])
 def test_tree_path_is_chosen_for_trees_only(topology, expected):
     """auto picks the O(n) elimination exactly when the free-node graph is a forest."""
-    net = synthetic_network(300, topology, seed=1618)
+    net = synthetic_network(1500, topology, seed=1618)
     A, rhs = nodal_system(net, 7)
     f = Factorization()
     f.solve(A, rhs)
@@ -100,7 +100,7 @@ def test_parallel_vessels_merge_and_keep_the_tree_path():
                                  {"id": "d", "from": "k", "to": "j", "length_m": 0.3, "radius_m": 1e-3}],
                         beds=[{"id": "bed", "node": "k", "resistance_pa_s_m3": 1e8,
                                "outflow_pressure_pa": 0.0}])
-    result = solve(net)
+    result = solve(net, method="tree")       # refused unless the merged graph is a tree
     assert result.solver.startswith("tree")
     mu = net.blood.viscosity_pa_s
     g = np.pi * net.vessels.radius_in_m ** 4 / (8 * mu * net.vessels.length_m)
@@ -116,7 +116,7 @@ def test_parallel_vessels_merge_and_keep_the_tree_path():
 
 def test_forest_of_several_parts():
     """Fixed pressures that cut the tree into parts: each part is eliminated on its own."""
-    net = synthetic_network(500, "tree", seed=4242)
+    net = synthetic_network(1500, "tree", seed=4242)
     pressure = net.nodes.pressure_pa.copy()
     pressure[[37, 111, 250]] = [9000.0, 8000.0, 7000.0]
     net = dataclasses.replace(net, nodes=dataclasses.replace(net.nodes, pressure_pa=pressure))
@@ -148,7 +148,7 @@ def test_deep_chain_uses_the_tree_order_without_a_pass_per_generation():
 @pytest.mark.parametrize("topology", TOPOLOGIES)
 def test_complex_matrices(topology):
     """Complex symmetric (pulsatile-like) systems: tree elimination or SuperLU, never CHOLMOD."""
-    net = synthetic_network(300, topology, seed=5772)
+    net = synthetic_network(1500, topology, seed=5772)
     A, rhs = nodal_system(net, 11)
     rng = np.random.default_rng(99)
     A = A + sp.diags(1j * rng.uniform(0.01, 0.1, A.shape[0]) * np.abs(A.diagonal()))
@@ -161,7 +161,7 @@ def test_complex_matrices(topology):
 
 def test_unsymmetric_matrix_goes_to_superlu_and_cholmod_refuses():
     """A Jacobian with dq/dp_a != -dq/dp_b is unsymmetric: LU with pivoting (LAPACK reference)."""
-    net = synthetic_network(300, "local", seed=8128)
+    net = synthetic_network(1500, "local", seed=8128)
     A, rhs = nodal_system(net, 5)
     A = sp.csc_matrix(A)
     A.data = A.data * np.random.default_rng(17).uniform(0.9, 1.1, len(A.data))
@@ -293,7 +293,7 @@ def test_auto_for_large_networks(monkeypatch, topology, expected, cholmod):
 
 def test_tree_elimination_of_unsymmetric_values():
     """The elimination reads A[p, c] and A[c, p] separately: unsymmetric trees solve too."""
-    A, rhs = nodal_system(synthetic_network(400, "tree", seed=5150), 9)
+    A, rhs = nodal_system(synthetic_network(1500, "tree", seed=5150), 9)
     A = sp.csc_matrix(A)
     A.data = A.data * np.random.default_rng(21).uniform(0.8, 1.2, len(A.data))
     f = Factorization()
@@ -305,7 +305,7 @@ def test_tree_elimination_of_unsymmetric_values():
 
 def test_superlu_ordering_found_once_then_reused():
     """Long-range loops: the first SuperLU call finds an MMD ordering, the second reuses it."""
-    A, rhs = nodal_system(synthetic_network(400, "long", seed=6502), 10)
+    A, rhs = nodal_system(synthetic_network(1500, "long", seed=6502), 10)
     f = Factorization("superlu")
     first = f.solve(A, rhs)
     assert f.ordering == "MMD_AT_PLUS_A, computed once"
@@ -313,3 +313,18 @@ def test_superlu_ordering_found_once_then_reused():
     ref = dense_reference(A, rhs)
     for x in (first, second):
         assert np.abs(x - ref).max() <= 1e-9 * np.abs(ref).max()
+
+
+def test_small_systems_take_the_reference_path():
+    """Below SMALL_SYSTEM unknowns auto is SuperLU with partial pivoting, bit for bit the
+    one-off solve_sparse (the path every earlier result was computed with)."""
+    from vesselnet.linsolve import SMALL_SYSTEM
+
+    A, rhs = nodal_system(synthetic_network(300, "local", seed=1234), 6)
+    assert A.shape[0] < SMALL_SYSTEM
+    f = Factorization()
+    x = f.solve(A, rhs)
+    assert f.method == "superlu" and "small system" in f.reason
+    assert f.ordering == "MMD_AT_PLUS_A, partial pivoting"
+    ref = dense_reference(A, rhs)
+    assert np.abs(x - ref).max() <= 1e-9 * np.abs(ref).max()

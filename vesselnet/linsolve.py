@@ -34,11 +34,15 @@ Examples
 --------
 >>> import numpy as np, scipy.sparse as sp
 >>> A = sp.csc_matrix(np.array([[2.0, -1.0, 0.0], [-1.0, 2.0, -1.0], [0.0, -1.0, 2.0]]))
->>> f = Factorization()
+>>> f = Factorization("tree")
 >>> np.round(f.solve(A, np.array([1.0, 0.0, 1.0])), 6)
 array([1., 1., 1.])
+>>> f.reason
+'the free-node graph is a forest (3 nodes, 2 distinct edges, 1 part): O(n) elimination (requested)'
+>>> f = Factorization()
+>>> _ = f.solve(A, np.array([1.0, 0.0, 1.0]))
 >>> f.method, f.reason
-('tree', 'the free-node graph is a forest (3 nodes, 2 distinct edges, 1 part): O(n) elimination, no fill')
+('superlu', 'a small system (3 nodes): sparse LU with partial pivoting, the reference path')
 """
 
 from __future__ import annotations
@@ -59,6 +63,10 @@ tree's own order: still fill-free, without one numpy pass per generation."""
 LOCAL_SPAN = 0.002
 """Loops count as local when their ends lie within this fraction of the
 nodes (at least 64) of each other in breadth-first order."""
+SMALL_SYSTEM = 1000
+"""Below this many unknowns ``auto`` (and ``superlu``) take SuperLU with partial pivoting,
+the long-standing reference path: speed does not matter there, and results stay
+identical to earlier versions bit for bit (coupled iterations can be that sensitive)."""
 AMG_TOLERANCE = 1e-13
 AMG_AUTO_SIZE = 200_000
 """``auto`` takes AMG (when pyamg imports) for networks this large whose loops span the
@@ -184,7 +192,8 @@ class Factorization:
     Parameters
     ----------
     method : {'auto', 'superlu', 'tree', 'cholmod', 'amg'}
-        ``auto``: ``tree`` for a forest; else ``amg`` for large real
+        ``auto``: SuperLU with partial pivoting below ``SMALL_SYSTEM`` unknowns;
+        ``tree`` for a forest; else ``amg`` for large real
         symmetric systems whose loops span the network, when pyamg is
         installed; else ``cholmod`` for real symmetric matrices when
         scikit-sparse is installed; else ``superlu``.  An
@@ -212,6 +221,7 @@ class Factorization:
         self.ordering = ""
         self.structure: Structure | None = None
         self._state: dict = {}
+        self._pivoting = False
         self.factorizations = 0
 
     @property
@@ -246,6 +256,7 @@ class Factorization:
         s = self.structure
         data = A.data
         symmetric = s.is_symmetric(data)
+        self._pivoting = False
         method, reason = self._choose(s, symmetric, np.iscomplexobj(data) or np.iscomplexobj(rhs))
         if method != self.method:
             self._state = {}
@@ -280,7 +291,12 @@ class Factorization:
                                  f"{kind} one; use 'superlu'")
             return "amg", f"requested; the matrix is {kind}"
         if m == "superlu":
+            self._pivoting = s.n < SMALL_SYSTEM
             return "superlu", f"requested; the matrix is {kind}"
+        if s.n < SMALL_SYSTEM:
+            self._pivoting = True
+            return "superlu", (f"a small system ({s.n} nodes): sparse LU with partial pivoting, "
+                               "the reference path")
         if s.is_forest:
             return "tree", forest + ": O(n) elimination, no fill"
         if symmetric and s.n >= AMG_AUTO_SIZE and amg_available() and not s.local_loops:
@@ -316,7 +332,7 @@ class Factorization:
 
         d = _scaling(s, data)
         scaled = data * d[s.rows] * d[s.cols]
-        if symmetric:
+        if symmetric and not self._pivoting:
             if "perm" not in self._state:
                 name, perm = self._symmetric_ordering(s)
                 if perm is None:

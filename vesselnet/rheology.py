@@ -37,6 +37,7 @@ import numpy as np
 
 from .errors import NetworkSpecError, Problem, SolveError
 from .hematocrit import march_hematocrit
+from .linsolve import Factorization
 from .model import Network
 from .result import SteadyResult
 from .solve import DEFAULT_MAX_ITERATIONS as NEWTON_MAX_ITERATIONS
@@ -94,7 +95,8 @@ def solve_rheology(network: Network, *, relaxation: float = DEFAULT_RELAXATION,
                    max_iterations: int = DEFAULT_MAX_ITERATIONS,
                    anderson_memory: int = DEFAULT_ANDERSON_MEMORY,
                    newton_tolerance: float = NEWTON_TOLERANCE,
-                   newton_max_iterations: int = NEWTON_MAX_ITERATIONS) -> SteadyResult:
+                   newton_max_iterations: int = NEWTON_MAX_ITERATIONS,
+                   method: str = "auto") -> SteadyResult:
     """Steady flows with diameter- and hematocrit-dependent viscosity and phase separation.
 
     Parameters
@@ -118,6 +120,9 @@ def solve_rheology(network: Network, *, relaxation: float = DEFAULT_RELAXATION,
         iteration.
     newton_tolerance, newton_max_iterations : float, int
         Passed to each flow solve (:func:`vesselnet.solve.solve`).
+    method : str
+        Linear solver of every flow solve (see :mod:`vesselnet.linsolve`); its
+        ordering and symbolic analysis are kept across the coupled iterations.
 
     Returns
     -------
@@ -204,10 +209,11 @@ def solve_rheology(network: Network, *, relaxation: float = DEFAULT_RELAXATION,
     q_prev = previous_step = None
     memory = _Anderson(int(anderson_memory), relaxation)
     limit = max_iterations if coupled else 1
+    linear = Factorization(method)        # one analysis for every coupled iteration
     for k in range(1, limit + 1):
         mu = viscosity(h)
         result = solve(network, viscosity_pa_s=mu, tolerance=newton_tolerance,
-                       max_iterations=newton_max_iterations)
+                       max_iterations=newton_max_iterations, factorization=linear)
         q = result.vessel_flow_m3_s
         h_march = _march(network, result, diameter_m, inlet_h, k)
         step = h_march - h

@@ -216,7 +216,7 @@ def solve(network: Network, *, viscosity_pa_s: np.ndarray | None = None,
                                    or network.blood.separation != "none"):
         from .rheology import solve_rheology  # imports this module: import late
         return solve_rheology(network, newton_tolerance=tolerance,
-                              newton_max_iterations=max_iterations)
+                              newton_max_iterations=max_iterations, method=method)
     if viscosity_pa_s is None:
         viscosity_pa_s = np.full(n_vessels, network.blood.viscosity_pa_s)
     viscosity_pa_s = np.asarray(viscosity_pa_s, dtype=float)

@@ -40,7 +40,7 @@ def run(args) -> int:
                                              ("anderson_memory", args.anderson_memory))
                if value is not None}
     if options or needs_rheology(network):
-        result = solve_rheology(network, **options)
+        result = solve_rheology(network, method=args.solver, **options)
     else:
         result = solve(network, method=args.solver)
     if args.output:
