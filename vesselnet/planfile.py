@@ -36,7 +36,6 @@ Examples
 
 from __future__ import annotations
 
-import dataclasses
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -47,11 +46,11 @@ from . import yamlread
 from .changefile import Change, apply_changes, read_changes, read_new_vessel
 from .changes import Join
 from .conduits import CONDUITS, conduit_wall
-from .errors import NetworkSpecError, Problem
+from .errors import NetworkSpecError
 from .fields import FieldReader, near_miss
 from .graftflags import TERRITORIES
 from .model import Network
-from .reader import check_version, load_network, read_units
+from .reader import begin_file, load_network
 from .yamlread import LocatedDict
 
 TOP_KEYS = ("vesselnet", "name", "description", "units", "network", "territory", "condition",
@@ -170,14 +169,9 @@ def read_plan_text(text: str, file: str = "<input>", base_dir=".") -> Plan:
 
 def read_plan(doc, file: str, base_dir: Path) -> Plan:
     """A plan from a parsed document (see :mod:`vesselnet.yamlread`)."""
-    fr = FieldReader(file)
-    if not isinstance(doc, dict):
-        raise NetworkSpecError([Problem(file, 0, 0, "", "the file is not a mapping of keys to values",
-                                        "start it with 'vesselnet: 1', 'network:', 'condition:', "
-                                        "'targets:' and 'candidates:'")])
-    check_version(fr, doc)
-    fr.allow(doc, TOP_KEYS, "top level")
-    read_units(fr, doc)
+    fr = begin_file(doc, file, TOP_KEYS,
+                    "start it with 'vesselnet: 1', 'network:', 'condition:', "
+                                        "'targets:' and 'candidates:'")
     network_path = fr.text(doc, "network", "network", required=True)
     territory = fr.text(doc, "territory", "territory", default="")
     if territory and territory not in TERRITORIES:

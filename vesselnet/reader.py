@@ -126,6 +126,25 @@ def read_network(doc, file: str, base_dir: Path) -> Network:
     return network
 
 
+def begin_file(doc, file: str, top_keys, start_hint: str) -> FieldReader:
+    """The opening every vesselnet file shares: a mapping, ``vesselnet: 1``, known top-level
+    keys, the file's ``units:``.  Returns the reader that collects the file's problems.
+
+    Raises
+    ------
+    NetworkSpecError
+        The document is not a mapping; ``start_hint`` says how such a file starts.
+    """
+    fr = FieldReader(file)
+    if not isinstance(doc, dict):
+        raise NetworkSpecError([Problem(file, 1, 0, "", "the file is not a mapping of keys to values",
+                                        start_hint)])
+    check_version(fr, doc)
+    fr.allow(doc, top_keys, "top level")
+    read_units(fr, doc)
+    return fr
+
+
 def check_version(fr: FieldReader, doc) -> None:
     """Require ``vesselnet: 1``."""
     if "vesselnet" not in doc:

@@ -28,10 +28,9 @@ from pathlib import Path
 
 from . import yamlread
 from .changefile import Change, apply_changes, read_changes
-from .errors import NetworkSpecError, Problem
-from .fields import FieldReader
+from .errors import NetworkSpecError
 from .model import Network
-from .reader import check_version, load_network, read_units
+from .reader import begin_file, load_network
 
 TOP_KEYS = ("vesselnet", "name", "description", "units", "network", "scenarios")
 SCENARIO_KEYS = ("name", "description", "changes")
@@ -100,13 +99,8 @@ def read_scenarios_text(text: str, file: str = "<input>", base_dir=".") -> Scena
 
 def read_scenarios(doc, file: str, base_dir: Path) -> ScenarioFile:
     """A scenario file from a parsed document (see :mod:`vesselnet.yamlread`)."""
-    fr = FieldReader(file)
-    if not isinstance(doc, dict):
-        raise NetworkSpecError([Problem(file, 0, 0, "", "the file is not a mapping of keys to values",
-                                        "start it with 'vesselnet: 1', 'network:' and 'scenarios:'")])
-    check_version(fr, doc)
-    fr.allow(doc, TOP_KEYS, "top level")
-    read_units(fr, doc)
+    fr = begin_file(doc, file, TOP_KEYS,
+                    "start it with 'vesselnet: 1', 'network:' and 'scenarios:'")
     network_path = fr.text(doc, "network", "network", required=True)
     scenarios, readable, names = [], [], {}
     items = fr.sequence(doc, "scenarios", "scenarios", required=True)

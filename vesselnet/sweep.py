@@ -60,11 +60,11 @@ import numpy as np
 from . import yamlread
 from .changefile import VERBS, Change, apply_changes, read_change, read_changes
 from .engine import Execution, ProgressCallback, run_chunked
-from .errors import NetworkSpecError, Problem, SolveError
+from .errors import NetworkSpecError, SolveError
 from .fields import FieldReader, near_miss
 from .interrupts import Interrupted
 from .model import Network
-from .reader import check_version, load_network, read_units
+from .reader import begin_file, load_network
 from .solve import solve
 from .units import DISPLAY_UNITS, from_si
 
@@ -125,13 +125,8 @@ def read_sweep_text(text: str, file: str = "<input>", base_dir=".") -> SweepSpec
 
 def read_sweep(doc, file: str, base_dir: Path) -> SweepSpec:
     """A sweep from a parsed document (see :mod:`vesselnet.yamlread`)."""
-    fr = FieldReader(file)
-    if not isinstance(doc, dict):
-        raise NetworkSpecError([Problem(file, 1, 0, "", "the file is not a mapping of keys to values",
-                                        "start it with 'vesselnet: 1', 'network:' and 'parameters:'")])
-    check_version(fr, doc)
-    fr.allow(doc, TOP_KEYS, "top level")
-    read_units(fr, doc)
+    fr = begin_file(doc, file, TOP_KEYS,
+                    "start it with 'vesselnet: 1', 'network:' and 'parameters:'")
     name = fr.text(doc, "name", "name", default=Path(file).stem) or Path(file).stem
     network_path = fr.text(doc, "network", "network", required=True)
     common = tuple(read_changes(fr, doc, "changes", "changes", required=False))

@@ -37,10 +37,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import NetworkSpecError, Problem
-from .fields import FieldReader, near_miss
+from .fields import near_miss
 from .model import Network
-from .reader import check_version, read_units
+from .reader import begin_file
 
 TOP_KEYS = ("vesselnet", "name", "description", "units", "inflow", "pressures", "shares", "flows")
 
@@ -63,13 +62,8 @@ def load_targets(path, network: Network) -> Targets:
 
 def read_targets(doc, network: Network, file: str = "<input>") -> Targets:
     """Put the targets of a parsed targets file into ``network`` (see the module notes)."""
-    fr = FieldReader(file)
-    if not isinstance(doc, dict):
-        raise NetworkSpecError([Problem(file, 1, 0, "", "the file is not a mapping of keys to values",
-                                        "start it with 'vesselnet: 1' and list 'shares:'")])
-    check_version(fr, doc)
-    fr.allow(doc, TOP_KEYS, "top level")
-    read_units(fr, doc)
+    fr = begin_file(doc, file, TOP_KEYS,
+                    "start it with 'vesselnet: 1' and list 'shares:'")
     nodes, beds = network.nodes, network.beds
     target_p = nodes.target_pressure_pa.copy()
     for node, _ in (fr.mapping(doc, "pressures", "pressures") or {}).items():

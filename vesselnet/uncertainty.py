@@ -58,7 +58,7 @@ from .engine import Execution, ProgressCallback, run_chunked
 from .errors import NetworkSpecError, Problem
 from .fields import FieldReader, near_miss
 from .model import Network
-from .reader import check_version, read_units
+from .reader import begin_file
 from .result import SteadyResult
 from .solve import solve
 
@@ -116,13 +116,8 @@ def load_uncertainty(path, network: Network) -> UncertaintySpec:
 
 def read_uncertainty(doc, network: Network, file: str = "<input>") -> UncertaintySpec:
     """Build an :class:`UncertaintySpec` from a parsed document (see :mod:`vesselnet.yamlread`)."""
-    fr = FieldReader(file)
-    if not isinstance(doc, dict):
-        raise NetworkSpecError([Problem(file, 1, 0, "", "the file is not a mapping of keys to values",
-                                        "start it with 'vesselnet: 1' and list 'uncertainty:'")])
-    check_version(fr, doc)
-    fr.allow(doc, TOP_KEYS, "top level")
-    read_units(fr, doc)
+    fr = begin_file(doc, file, TOP_KEYS,
+                    "start it with 'vesselnet: 1' and list 'uncertainty:'")
     items = fr.sequence(doc, "uncertainty", "uncertainty", required=True) or []
     entries = []
     for k, item in enumerate(items):

@@ -376,7 +376,6 @@ def write_tables(result: SteadyResult, directory) -> list[Path]:
     net = result.network
     node_ids = as_bytes(net.nodes.id_array)   # once: from, to and node are gathers of it
     nodes = result.node_table()
-    beds = result.bed_table()
     tables = {
         "nodes.csv": (node_ids, {}, _converted(nodes, NODE_COLUMNS)),
         "vessels.csv": (as_bytes(net.vessels.id_array), {"from": node_ids[net.vessels.from_node],
