@@ -197,7 +197,85 @@ def test_result_arrays_hold_the_tables(forms, tmp_path):
         np.testing.assert_array_equal(data["vessel_flow_m3_s"], result.vessel_flow_m3_s)
         np.testing.assert_array_equal(data["node_pressure_pa"], result.pressure_pa)
         np.testing.assert_array_equal(data["bed_share"], result.bed_share)
-        assert tuple(data["vessel_id"].tolist()) == result.network.vessels.ids
-        ids = data["node_id"]
+        assert tuple(data["vessel_id"].astype(str).tolist()) == result.network.vessels.ids
+        assert data["vessel_id"].dtype.kind == "S"      # ASCII ids as bytes
+        ids = data["node_id"].astype(str)
         assert ids[data["vessel_from_node"]].tolist() == result.vessel_table()["from"].tolist()
         assert json.loads(str(data["checks"]))["solver"] == result.solver
+
+
+def test_npz_stores_constant_columns_once_and_ascii_ids_as_bytes(forms):
+    """Version 2: a column of one repeated value is stored as that value (one dimension
+    fewer), ids as bytes; reading gives the full columns back (checked against the CSV
+    form of the same network, an independent reader)."""
+    with np.load(forms["npz"]) as data:
+        assert data["vessel_wall_thickness_m"].shape == ()          # NaN in every row
+        assert data["node_position_m"].shape == (3,)                 # one NaN row for all
+        assert data["vessel_length_m"].shape == (len(data["vessel_id"]),)
+        assert data["vessel_id"].dtype.kind == "S"
+        assert json.loads(str(data["header"]))["version"] == 2
+    _same_network(load_network(forms["csv"]), load_network(forms["npz"]))
+
+
+def test_version_1_npz_still_reads(forms, tmp_path):
+    """A file in the first layout (every column full, ids as numpy text) reads as before."""
+    net = load_network(forms["csv"])
+    arrays = {}
+    for key, value in network_arrays(net).items():
+        section = key.split("_")[0]
+        size = {"node": len(net.nodes), "vessel": len(net.vessels), "bed": len(net.beds)}.get(section)
+        if key.endswith("_id"):
+            value = value.astype(str)
+        elif size is not None and value.ndim == (2 if key == "node_position_m" else 1) - 1:
+            value = np.array(np.broadcast_to(value, (size,) + value.shape))
+        arrays[key] = value
+    header = json.loads(str(arrays["header"]))
+    arrays["header"] = np.array(json.dumps({**header, "version": 1}))
+    np.savez(tmp_path / "old.npz", **arrays)
+    _same_network(net, load_network(tmp_path / "old.npz"))
+
+
+def test_npz_keeps_non_ascii_ids(tmp_path):
+    """Ids outside ASCII stay numpy text in the file and read back unchanged."""
+    net = Network.build(nodes={"aorta": {"pressure_pa": 12000.0}},
+                        vessels=[{"id": "äste-1", "from": "aorta", "to": "knoten-ß", "length_m": 0.1,
+                                  "radius_m": 0.002},
+                                 {"id": "b", "from": "knoten-ß", "to": "t", "length_m": 0.1,
+                                  "radius_m": 0.001}],
+                        beds=[{"id": "organ", "node": "t", "resistance_pa_s_m3": 1e9}])
+    path = write_network(net, tmp_path / "u.npz")
+    with np.load(path) as data:
+        assert data["vessel_id"].dtype.kind == "U" and data["bed_id"].dtype.kind == "S"
+    back = load_network(path)
+    assert back.vessels.ids == ("äste-1", "b") and back.nodes.ids == net.nodes.ids
+
+
+@pytest.mark.parametrize("ids, expected", [
+    (["a", "b", "a"], ["a"]),
+    (["x", "yy", "x", "yy", "z"], ["x", "yy"]),
+    ([f"vessel-{i:09d}" for i in range(3000)] + ["vessel-000000007"], ["vessel-000000007"]),
+    ([f"v{i}" for i in range(5000)], []),
+])
+@pytest.mark.parametrize("as_bytes", [False, True])
+def test_duplicate_ids_are_found_exactly(ids, expected, as_bytes):
+    """The vectorised duplicate search against Python's own count (collections.Counter)."""
+    from collections import Counter
+
+    from vesselnet.netfiles import duplicated
+
+    array = np.array(ids, dtype="S" if as_bytes else str)
+    assert duplicated(array) == expected
+    assert sorted(expected) == sorted(k for k, c in Counter(ids).items() if c > 1)
+
+
+def test_binary_path_makes_no_python_strings(forms, tmp_path):
+    """npz in, solve, npz out: the ids stay numpy arrays throughout (no tuple of 10^6
+    Python strings is built); asking for them as a tuple still works."""
+    from vesselnet.model import Ids
+    from vesselnet.writers import write_arrays
+
+    net = load_network(forms["npz"])
+    write_arrays(solve(net), tmp_path / "r.npz")
+    for section in (net.nodes, net.vessels, net.beds):
+        assert isinstance(section.ids, Ids) and section.ids._tuple is None
+    assert net.vessels.ids == load_network(forms["csv"]).vessels.ids

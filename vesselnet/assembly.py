@@ -57,9 +57,23 @@ class NodalPattern:
         both = free_a & free_b
         keep = np.concatenate([free_a, both, both, free_b])
         self._keep = keep
-        slot, self._indices, self._indptr = _structure(self.n_free, ra, rb)
+        slot, self._indices, self._indptr, self._transpose, self._diag = _structure(self.n_free, ra, rb)
         self._slot = slot[keep]
         self._nnz = len(self._indices)
+        self._linear_structure = None
+
+    @property
+    def structure(self):
+        """The :class:`vesselnet.linsolve.Structure` of the matrices, built once from what
+        the assembly already knows (pass it to ``Factorization.solve``)."""
+        if self._linear_structure is None:
+            from .linsolve import Structure
+
+            self._linear_structure = Structure(
+                sp.csc_matrix((np.zeros(self._nnz), self._indices, self._indptr),
+                              shape=(self.n_free, self.n_free)),
+                transpose=self._transpose, diag=self._diag)
+        return self._linear_structure
 
     def matrix(self, d_aa, d_ab, d_ba, d_bb) -> sp.csc_matrix:
         """The free-node matrix from per-element stamps (real or complex)."""
@@ -100,7 +114,8 @@ def _structure(n: int, ra: np.ndarray, rb: np.ndarray):
     distinct free-free edge, so parallel elements share their slots.  One sort
     of the edge keys; the rest is scipy's compiled COO -> CSC conversion.
     Returns the slots of the stamps aa, ab, ba, bb of every element (-1 where
-    a row or column is not free), the indices and the indptr.
+    a row or column is not free), the indices, the indptr, the slot of each
+    entry's transpose and the slots of the diagonal.
     """
     width = max(n, 1)
     both = (ra >= 0) & (rb >= 0) & (ra != rb)
@@ -125,7 +140,10 @@ def _structure(n: int, ra: np.ndarray, rb: np.ndarray):
     ab[both] = position[n + edge.reshape(-1) + np.where(forward, 0, u)]
     ba[both] = position[n + edge.reshape(-1) + np.where(forward, u, 0)]
     slot = np.concatenate([aa, ab, ba, bb])
-    return slot, csc.indices.astype(np.int32), csc.indptr.astype(np.int32)
+    transpose = np.empty(n + 2 * u, dtype=np.int64)
+    transpose[position] = position[np.concatenate([diagonal, n + u + np.arange(u), n + np.arange(u)])]
+    return (slot, csc.indices.astype(np.int32), csc.indptr.astype(np.int32), transpose,
+            position[:n].copy())
 
 
 def solve_sparse(A: sp.spmatrix, rhs: np.ndarray) -> np.ndarray:

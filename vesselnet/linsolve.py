@@ -93,27 +93,36 @@ class Structure:
     A : scipy.sparse matrix, shape (n, n)
         Only its structure is used; it must be structurally symmetric with
         every diagonal entry present (a nodal matrix is).
+    transpose, diag : ndarray of int, optional
+        Where each stored entry's transpose sits and where the diagonal
+        sits, in ``A``'s sorted CSC order, when the caller already knows
+        (:class:`vesselnet.assembly.NodalPattern` does); else found here.
     """
 
-    def __init__(self, A):
+    def __init__(self, A, *, transpose: np.ndarray | None = None, diag: np.ndarray | None = None):
         A = sp.csc_matrix(A)
         A.sort_indices()
         n = A.shape[0]
         self.n = n
-        self.indptr, self.indices = A.indptr.copy(), A.indices.copy()
+        self.indptr, self.indices = A.indptr, A.indices
+        if transpose is None:      # a caller's matrix: keep a structure of our own
+            self.indptr, self.indices = A.indptr.copy(), A.indices.copy()
         self.cols = np.repeat(np.arange(n), np.diff(self.indptr))
         self.rows = self.indices.astype(np.int64)
         nnz = len(self.rows)
-        # structurally symmetric: the CSR of the positions is the transpose map
-        positions = sp.csc_matrix((np.arange(nnz, dtype=float), self.indices, self.indptr),
-                                  shape=(n, n)).tocsr()
-        positions.sort_indices()
-        if not (np.array_equal(positions.indptr, self.indptr)
-                and np.array_equal(positions.indices, self.indices)):
-            raise SolveError("linear solve: the matrix is not structurally symmetric; it is not a "
-                             "nodal matrix")
-        self.transpose = positions.data.astype(np.int64)
-        diag = np.flatnonzero(self.rows == self.cols)
+        if transpose is None:
+            # structurally symmetric: the CSR of the positions is the transpose map
+            positions = sp.csc_matrix((np.arange(nnz, dtype=float), self.indices, self.indptr),
+                                      shape=(n, n)).tocsr()
+            positions.sort_indices()
+            if not (np.array_equal(positions.indptr, self.indptr)
+                    and np.array_equal(positions.indices, self.indices)):
+                raise SolveError("linear solve: the matrix is not structurally symmetric; it is not a "
+                                 "nodal matrix")
+            transpose = positions.data.astype(np.int64)
+        self.transpose = transpose
+        if diag is None:
+            diag = np.flatnonzero(self.rows == self.cols)
         if len(diag) != n:
             raise SolveError("linear solve: the matrix lacks diagonal entries; it is not a nodal "
                              "matrix")
@@ -231,7 +240,7 @@ class Factorization:
             return "none (no free nodes)"
         return f"{self.method} ({self.ordering})" if self.ordering else self.method
 
-    def solve(self, A, rhs: np.ndarray) -> np.ndarray:
+    def solve(self, A, rhs: np.ndarray, structure: Structure | None = None) -> np.ndarray:
         """Solve ``A x = rhs``; the first call (or a new pattern) does the analysis.
 
         Parameters
@@ -239,6 +248,8 @@ class Factorization:
         A : scipy.sparse matrix, shape (n, n)
             A nodal matrix, real or complex.
         rhs : ndarray, shape (n,)
+        structure : Structure, optional
+            ``A``'s structure, when the caller keeps one (it is then trusted).
 
         Returns
         -------
@@ -249,8 +260,9 @@ class Factorization:
         if A.shape[0] == 0:
             return np.zeros(0, dtype=np.result_type(A.dtype, rhs.dtype))
         A.sort_indices()
-        if self.structure is None or not self.structure.same_pattern(A):
-            self.structure = Structure(A)
+        if self.structure is None or (structure is not self.structure
+                                      and not self.structure.same_pattern(A)):
+            self.structure = structure if structure is not None else Structure(A)
             self._state = {}
             self.method = ""
         s = self.structure

@@ -26,11 +26,94 @@ import dataclasses
 import functools
 import itertools
 from collections.abc import Mapping, Sequence
+from typing import Union
 from dataclasses import dataclass, field
 
 import numpy as np
 
 NAN = float("nan")
+
+
+class Ids(Sequence):
+    """Item ids held as a numpy ``str`` array, a tuple of Python strings only when asked.
+
+    Behaves as the tuple it stands for (``==``, ``hash``, ``repr``, ``+``,
+    ``in``, slicing), so code may treat ``section.ids`` as a tuple; but its
+    length, single items and ``numpy.asarray`` need no Python strings, and a
+    10^6-vessel binary network reads without making any.
+
+    >>> ids = Ids(np.array(["a", "b"]))
+    >>> len(ids), ids[1], ids == ("a", "b"), ids
+    (2, 'b', True, ('a', 'b'))
+    """
+
+    __slots__ = ("array", "_tuple")
+
+    def __init__(self, array: np.ndarray):
+        self.array = array
+        self._tuple: tuple[str, ...] | None = None
+
+    @property
+    def as_tuple(self) -> tuple[str, ...]:
+        if self._tuple is None:
+            self._tuple = tuple(self.array.tolist())
+        return self._tuple
+
+    def __len__(self) -> int:
+        return len(self.array)
+
+    def __getitem__(self, i):
+        if self._tuple is not None or isinstance(i, slice):
+            return self.as_tuple[i]
+        return str(self.array[i])
+
+    def __iter__(self):
+        return iter(self.as_tuple)
+
+    def __contains__(self, item) -> bool:
+        return item in self.as_tuple
+
+    def __eq__(self, other) -> bool:
+        if isinstance(other, Ids):
+            other = other.as_tuple
+        return self.as_tuple == other if isinstance(other, tuple) else NotImplemented
+
+    def __hash__(self) -> int:
+        return hash(self.as_tuple)
+
+    def __repr__(self) -> str:
+        return repr(self.as_tuple)
+
+    def __add__(self, other):
+        return self.as_tuple + tuple(other)
+
+    def __radd__(self, other):
+        return tuple(other) + self.as_tuple
+
+    def index(self, item, *args) -> int:
+        return self.as_tuple.index(item, *args)
+
+    def count(self, item) -> int:
+        return self.as_tuple.count(item)
+
+    def __array__(self, dtype=None, copy=None):
+        return self.array if dtype is None else self.array.astype(dtype)
+
+    def __reduce__(self):
+        return Ids, (self.array,)
+
+
+IdSequence = Union[tuple, Ids]
+
+
+def _ids(values) -> IdSequence:
+    """``Ids`` for a numpy string array, else a tuple of strings."""
+    if isinstance(values, np.ndarray) and values.dtype.kind == "U":
+        if values.flags.writeable:
+            values = values.copy()
+            values.flags.writeable = False
+        return Ids(values)
+    return tuple(map(str, values))
 
 
 class _LazyIndex(dict):
@@ -87,7 +170,7 @@ class Blood:
 class _Columns:
     """Shared behaviour of the columnar sections."""
 
-    ids: tuple[str, ...]
+    ids: IdSequence
 
     def __len__(self) -> int:
         return len(self.ids)
@@ -100,6 +183,8 @@ class _Columns:
     @functools.cached_property
     def id_array(self) -> np.ndarray:
         """The ids as a read-only numpy ``str`` array (for writers of large tables)."""
+        if isinstance(self.ids, Ids):
+            return self.ids.array
         return _frozen_array(self.ids, str) if len(self.ids) else np.zeros(0, dtype="U1")
 
     def row(self, i: int) -> dict[str, object]:
@@ -135,7 +220,7 @@ class Nodes(_Columns):
     ``inflow_waveforms`` maps a node row to its pulsatile inflow description.
     """
 
-    ids: tuple[str, ...]
+    ids: IdSequence
     pressure_pa: np.ndarray
     inflow_m3_s: np.ndarray
     position_m: np.ndarray
@@ -156,7 +241,7 @@ class Vessels(_Columns):
     rows that carry it.
     """
 
-    ids: tuple[str, ...]
+    ids: IdSequence
     from_node: np.ndarray
     to_node: np.ndarray
     length_m: np.ndarray
@@ -195,7 +280,7 @@ class Beds(_Columns):
     it can (see :mod:`vesselnet.autoregulation`).
     """
 
-    ids: tuple[str, ...]
+    ids: IdSequence
     node: np.ndarray
     resistance_pa_s_m3: np.ndarray
     outflow_pressure_pa: np.ndarray
@@ -259,13 +344,13 @@ class Network:
         """
         nodes = dict(nodes or {"id": ()})
         beds = dict(beds or {"id": ()})
-        given_ids = list(map(str, nodes["id"]))
         if "from_node" in vessels:     # rows of nodes["id"] already: no mapping
-            node_ids = tuple(given_ids)
+            node_ids = given_ids = _ids(nodes["id"])
             index = _LazyIndex(node_ids)
             from_rows = np.asarray(vessels["from_node"], dtype=np.int64)
             to_rows = np.asarray(vessels["to_node"], dtype=np.int64)
         else:
+            given_ids = list(map(str, nodes["id"]))
             order = dict.fromkeys(itertools.chain.from_iterable(
                 zip(map(str, vessels["from"]), map(str, vessels["to"]))))
             order.update(dict.fromkeys(given_ids))
@@ -305,7 +390,7 @@ class Network:
         r_in = col("radius_in_m", NAN) if "radius_in_m" in vessels else col("radius_m", NAN)
         r_out = col("radius_out_m", NAN) if "radius_out_m" in vessels else col("radius_m", NAN)
         vessel_table = Vessels(
-            ids=tuple(map(str, vessels["id"])),
+            ids=_ids(vessels["id"]),
             from_node=from_rows.reshape(n), to_node=to_rows.reshape(n),
             length_m=col("length_m", NAN), radius_in_m=r_in, radius_out_m=r_out,
             wall_thickness_m=col("wall_thickness_m", NAN), wall_modulus_pa=col("wall_modulus_pa", NAN),
@@ -333,7 +418,7 @@ class Network:
         outflow_p = np.where(outflow_node >= 0, NAN, np.where(np.isnan(outflow_p),
                                                                 venous_pressure_pa, outflow_p))
         bed_table = Beds(
-            ids=tuple(map(str, beds["id"])),
+            ids=_ids(beds["id"]),
             node=(np.asarray(beds["node"], dtype=np.int64) if _is_rows(beds.get("node"))
                   else _rows(index, beds.get("node", ()))).reshape(m),
             resistance_pa_s_m3=bed_col("resistance_pa_s_m3", NAN), outflow_pressure_pa=outflow_p,

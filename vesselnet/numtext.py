@@ -226,6 +226,46 @@ def _narrow(column: np.ndarray) -> np.ndarray:
     return column if width >= column.dtype.itemsize else column.astype(f"S{max(width, 1)}")
 
 
+def ascii_bytes(text: np.ndarray) -> np.ndarray | None:
+    """A numpy text (``U``) array as bytes (``S``) when every character is ASCII, else None.
+
+    Code point by code point into single bytes: tens of times faster than
+    ``astype(bytes)``, which encodes item by item.
+
+    >>> ascii_bytes(np.array(["a", "bc"])).tolist(), ascii_bytes(np.array(["é"]))
+    ([b'a', b'bc'], None)
+    """
+    width = max(text.dtype.itemsize // 4, 1)
+    if not len(text):
+        return np.zeros(0, dtype=f"S{width}")
+    points = np.ascontiguousarray(text).view("<u4").reshape(len(text), -1)
+    if (points > 127).any():
+        return None
+    return points.astype(np.uint8).view(f"S{width}").reshape(len(text))
+
+
+def ascii_text(raw: np.ndarray) -> np.ndarray:
+    """A bytes (``S``) array of ASCII as numpy text (``U``), read-only; the inverse of
+    :func:`ascii_bytes` (bytes above 127 are taken as Latin-1).
+
+    >>> ascii_text(np.array([b"a", b"bc"])).tolist()
+    ['a', 'bc']
+    """
+    width = max(raw.dtype.itemsize, 1)
+    octets = np.ascontiguousarray(raw).view(np.uint8).reshape(len(raw), raw.dtype.itemsize)
+    wide = np.zeros((len(raw), width), dtype="<u4")
+    wide[:, :octets.shape[1]] = octets
+    out = wide.view(f"<U{width}").reshape(len(raw))
+    out.flags.writeable = False
+    return out
+
+
+def compact_text(text: np.ndarray) -> np.ndarray:
+    """ASCII text as bytes (a quarter of the size of numpy's UCS-4 text), other text unchanged."""
+    narrow = ascii_bytes(text) if text.dtype.kind == "U" else None
+    return text if narrow is None else narrow
+
+
 def as_bytes(column) -> np.ndarray:
     """A text column (array or list of str, or bytes array) as a bytes array (UTF-8).
 
@@ -235,10 +275,9 @@ def as_bytes(column) -> np.ndarray:
     if isinstance(column, np.ndarray) and column.dtype.kind == "S":
         return column
     if isinstance(column, np.ndarray) and column.dtype.kind == "U":
-        try:
-            return column.astype(f"S{max(column.dtype.itemsize // 4, 1)}")   # ASCII: one C pass
-        except UnicodeEncodeError:
-            pass
+        narrow = ascii_bytes(column)
+        if narrow is not None:
+            return narrow
     items = column.tolist() if isinstance(column, np.ndarray) else list(column)
     if not items:
         return np.zeros(0, dtype="S1")

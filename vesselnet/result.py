@@ -154,33 +154,43 @@ class SteadyResult:
         """Bed node pressure minus its outflow pressure (Pa)."""
         return self.bed_pressure_pa - self.bed_outflow_pressure_pa
 
-    def node_table(self) -> dict[str, np.ndarray]:
-        """Per-node columns (SI): id, pressure, boundary inflow."""
-        return {"id": np.array(self.network.nodes.ids, dtype=object),
-                "pressure_pa": self.pressure_pa, "inflow_m3_s": self.boundary_inflow_m3_s}
+    def node_table(self, ids: bool = True) -> dict[str, np.ndarray]:
+        """Per-node columns (SI): id, pressure, boundary inflow (``ids=False``: numbers only)."""
+        table = {"id": np.array(self.network.nodes.ids, dtype=object)} if ids else {}
+        table.update({"pressure_pa": self.pressure_pa, "inflow_m3_s": self.boundary_inflow_m3_s})
+        return table
 
-    def vessel_table(self) -> dict[str, np.ndarray]:
-        """Per-vessel columns (SI): flow, pressure drop, velocity, shear, Reynolds, ..."""
+    def vessel_table(self, ids: bool = True) -> dict[str, np.ndarray]:
+        """Per-vessel columns (SI): flow, pressure drop, velocity, shear, Reynolds, ...
+
+        ``ids=False`` leaves out the text columns ``id``, ``from`` and ``to``.
+        """
         v = self.network.vessels
-        nodes = np.array(self.network.nodes.ids, dtype=object)
-        table = {"id": np.array(v.ids, dtype=object), "from": nodes[v.from_node],
-                 "to": nodes[v.to_node], "flow_m3_s": self.vessel_flow_m3_s,
-                 "pressure_drop_pa": self.vessel_pressure_drop_pa,
-                 "mean_velocity_m_s": self.vessel_mean_velocity_m_s, "wss_pa": self.vessel_wss_pa,
-                 "reynolds": self.vessel_reynolds, "reversed": self.vessel_reversed,
-                 "resistance_pa_s_m3": self.vessel_resistance_pa_s_m3,
-                 "viscosity_pa_s": self.vessel_viscosity_pa_s}
+        table = {}
+        if ids:
+            nodes = np.array(self.network.nodes.ids, dtype=object)
+            table = {"id": np.array(v.ids, dtype=object), "from": nodes[v.from_node],
+                     "to": nodes[v.to_node]}
+        table.update({"flow_m3_s": self.vessel_flow_m3_s,
+                      "pressure_drop_pa": self.vessel_pressure_drop_pa,
+                      "mean_velocity_m_s": self.vessel_mean_velocity_m_s, "wss_pa": self.vessel_wss_pa,
+                      "reynolds": self.vessel_reynolds, "reversed": self.vessel_reversed,
+                      "resistance_pa_s_m3": self.vessel_resistance_pa_s_m3,
+                      "viscosity_pa_s": self.vessel_viscosity_pa_s})
         table.update(self.vessel_extra)
         return table
 
-    def bed_table(self) -> dict[str, np.ndarray]:
-        """Per-bed columns (SI): flow, share, node pressure, perfusion pressure, extras."""
+    def bed_table(self, ids: bool = True) -> dict[str, np.ndarray]:
+        """Per-bed columns (SI): flow, share, node pressure, perfusion pressure, extras
+        (``ids=False``: without ``id`` and ``node``)."""
         beds = self.network.beds
-        nodes = np.array(self.network.nodes.ids, dtype=object)
-        table = {"id": np.array(beds.ids, dtype=object), "node": nodes[beds.node],
-                 "flow_m3_s": self.bed_flow_m3_s, "share": self.bed_share,
-                 "pressure_pa": self.bed_pressure_pa,
-                 "perfusion_pressure_pa": self.bed_perfusion_pressure_pa}
+        table = {}
+        if ids:
+            nodes = np.array(self.network.nodes.ids, dtype=object)
+            table = {"id": np.array(beds.ids, dtype=object), "node": nodes[beds.node]}
+        table.update({"flow_m3_s": self.bed_flow_m3_s, "share": self.bed_share,
+                      "pressure_pa": self.bed_pressure_pa,
+                      "perfusion_pressure_pa": self.bed_perfusion_pressure_pa})
         table.update(self.bed_extra)
         return table
 

