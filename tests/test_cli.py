@@ -76,3 +76,34 @@ def test_written_files_get_the_usual_permissions(tmp_path):
         os.umask(old)
     assert (tmp_path / "x.txt").stat().st_mode & 0o777 == 0o644
     assert [p.name for p in tmp_path.iterdir()] == ["x.txt"]
+
+
+def test_large_network_report_shows_the_first_rows_and_says_how_many_more(capsys):
+    """A 4000-vessel network: the terminal report lists 40 rows a table, beds by largest
+    share (checked against numpy's sort of the result), and the count of the rest."""
+    from vesselnet.synthetic import synthetic_network
+    from vesselnet.textreport import MAX_ROWS, solve_report
+
+    net = synthetic_network(4000, "local", seed=9091)
+    result = solve(net)
+    text = solve_report(result)
+    assert len(text.splitlines()) < 4 * MAX_ROWS + 40
+    assert f"... {len(net.vessels) - MAX_ROWS} more" in text
+    assert f"... {len(net.beds) - MAX_ROWS} more" in text
+    assert f"... {len(net.nodes) - MAX_ROWS} more" in text
+    beds_part = text.split("Beds (largest share first)")[1].splitlines()
+    top = int(np.argmax(result.bed_share))
+    assert beds_part[3].split()[0] == net.beds.ids[top]
+    assert float(beds_part[3].split()[2]) == pytest.approx(100 * result.bed_share[top], abs=0.06)
+
+
+def test_solve_writes_binary_results(tmp_path, capsys):
+    """``solve FILE -o OUT.npz``: every result column in SI, equal to the library's."""
+    out = tmp_path / "results.npz"
+    assert main(["solve", str(demo_path("leg")), "-o", str(out)]) == 0
+    assert str(out) in capsys.readouterr().out
+    result = solve(load_network(demo_path("leg")))
+    with np.load(out) as data:
+        np.testing.assert_array_equal(data["vessel_flow_m3_s"], result.vessel_flow_m3_s)
+        np.testing.assert_array_equal(data["bed_share"], result.bed_share)
+        assert tuple(data["bed_id"].astype(str)) == result.network.beds.ids

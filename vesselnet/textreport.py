@@ -51,48 +51,58 @@ def format_table(headers: list[str], rows: list[list], *, digits: int = 1) -> st
     return "\n".join(out)
 
 
-def _truncated(rows: list[list], limit: int) -> tuple[list[list], str]:
-    if len(rows) <= limit:
-        return rows, ""
-    return rows[:limit], f"... {len(rows) - limit} more (all of them with --json or -o DIR)"
+def _shown(count: int, limit: int) -> tuple[int, str]:
+    """How many of ``count`` rows a table shows, and the line that says what it left out.
+
+    Rows are built for the shown ones only: a 10^6-vessel report costs what a small one does.
+    """
+    if count <= limit:
+        return count, ""
+    return limit, f"... {count - limit} more (all of them with --json or -o PATH)"
 
 
-def bed_table_text(result: SteadyResult) -> str:
+def bed_table_text(result: SteadyResult, limit: int = MAX_ROWS) -> str:
     """Beds sorted by share, largest first: flow, share, node and perfusion pressure."""
     beds = result.network.beds
     if not len(beds):
         return "no beds"
-    order = np.argsort(-np.nan_to_num(result.bed_share, nan=-1.0), kind="stable")
-    flow = from_si(result.bed_flow_m3_s, "flow", DISPLAY_UNITS["flow"])
-    pressure = from_si(result.bed_pressure_pa, "pressure", "mmHg")
-    perfusion = from_si(result.bed_perfusion_pressure_pa, "pressure", "mmHg")
-    rows = [[beds.ids[i], flow[i], 100 * result.bed_share[i], pressure[i], perfusion[i],
-             result.network.nodes.ids[beds.node[i]]] for i in order]
+    shown, more = _shown(len(beds), limit)
+    order = np.argsort(-np.nan_to_num(result.bed_share, nan=-1.0), kind="stable")[:shown]
+    flow = from_si(result.bed_flow_m3_s[order], "flow", DISPLAY_UNITS["flow"])
+    pressure = from_si(result.bed_pressure_pa[order], "pressure", "mmHg")
+    perfusion = from_si(result.bed_perfusion_pressure_pa[order], "pressure", "mmHg")
+    share = 100 * result.bed_share[order]
+    node_ids = result.network.nodes.ids
+    rows = [[beds.ids[i], flow[k], share[k], pressure[k], perfusion[k], node_ids[beds.node[i]]]
+            for k, i in enumerate(order)]
     headers = ["bed", f"flow [{DISPLAY_UNITS['flow']}]", "share [%]", "pressure [mmHg]",
                "perfusion [mmHg]", "node"]
     if "red_cell_delivery_m3_s" in result.bed_extra:
-        cells = from_si(result.bed_extra["red_cell_delivery_m3_s"], "flow", DISPLAY_UNITS["flow"])
-        rows = [row + [cells[i]] for row, i in zip(rows, order)]
+        cells = from_si(result.bed_extra["red_cell_delivery_m3_s"][order], "flow",
+                        DISPLAY_UNITS["flow"])
+        rows = [row + [cells[k]] for k, row in enumerate(rows)]
         headers.append(f"red cells [{DISPLAY_UNITS['flow']}]")
-    return format_table(headers, rows)
+    return format_table(headers, rows) + ("\n" + more if more else "")
 
 
 def vessel_table_text(result: SteadyResult, limit: int = MAX_ROWS) -> str:
     """Vessels in input order: flow, pressure drop, velocity, wall shear stress, Reynolds."""
     v = result.network.vessels
-    flow = from_si(result.vessel_flow_m3_s, "flow", DISPLAY_UNITS["flow"])
-    drop = from_si(result.vessel_pressure_drop_pa, "pressure", "mmHg")
-    rows = [[v.ids[i], flow[i], drop[i], result.vessel_mean_velocity_m_s[i], result.vessel_wss_pa[i],
-             result.vessel_reynolds[i], "reversed" if result.vessel_reversed[i] else ""]
-            for i in range(len(v))]
+    shown, more = _shown(len(v), limit)
+    flow = from_si(result.vessel_flow_m3_s[:shown], "flow", DISPLAY_UNITS["flow"])
+    drop = from_si(result.vessel_pressure_drop_pa[:shown], "pressure", "mmHg")
+    velocity, wss = result.vessel_mean_velocity_m_s[:shown], result.vessel_wss_pa[:shown]
+    reynolds, reversed_ = result.vessel_reynolds[:shown], result.vessel_reversed[:shown]
+    rows = [[v.ids[i], flow[i], drop[i], velocity[i], wss[i], reynolds[i],
+             "reversed" if reversed_[i] else ""] for i in range(shown)]
     headers = ["vessel", f"flow [{DISPLAY_UNITS['flow']}]", "dP [mmHg]", "velocity [m/s]",
                "wss [Pa]", "Re", ""]
     if "hematocrit" in result.vessel_extra:
-        viscosity = from_si(result.vessel_viscosity_pa_s, "viscosity", DISPLAY_UNITS["viscosity"])
-        rows = [row[:-1] + [result.vessel_extra["hematocrit"][i], viscosity[i], row[-1]]
-                for i, row in enumerate(rows)]
+        viscosity = from_si(result.vessel_viscosity_pa_s[:shown], "viscosity",
+                            DISPLAY_UNITS["viscosity"])
+        hematocrit = result.vessel_extra["hematocrit"]
+        rows = [row[:-1] + [hematocrit[i], viscosity[i], row[-1]] for i, row in enumerate(rows)]
         headers[-1:] = ["HD", f"viscosity [{DISPLAY_UNITS['viscosity']}]", ""]
-    rows, more = _truncated(rows, limit)
     text = format_table(headers, rows, digits=2)
     return text + ("\n" + more if more else "")
 
@@ -100,8 +110,9 @@ def vessel_table_text(result: SteadyResult, limit: int = MAX_ROWS) -> str:
 def node_table_text(result: SteadyResult, limit: int = MAX_ROWS) -> str:
     """Node pressures in input order."""
     ids = result.network.nodes.ids
-    pressure = from_si(result.pressure_pa, "pressure", "mmHg")
-    rows, more = _truncated([[ids[i], pressure[i]] for i in range(len(ids))], limit)
+    shown, more = _shown(len(ids), limit)
+    pressure = from_si(result.pressure_pa[:shown], "pressure", "mmHg")
+    rows = [[ids[i], pressure[i]] for i in range(shown)]
     return format_table(["node", "pressure [mmHg]"], rows, digits=2) + ("\n" + more if more else "")
 
 
@@ -153,12 +164,13 @@ def wall_table_text(result: SteadyResult, limit: int = MAX_ROWS) -> str:
     v = result.network.vessels
     extra = result.vessel_extra
     rows_ = np.flatnonzero(~np.isnan(v.wall_thickness_m) | v.distensible)
+    shown, more = _shown(len(rows_), limit)
+    rows_ = rows_[:shown]
     radius = from_si(extra["lumen_radius_m"], "radius", DISPLAY_UNITS["radius"])
     stress = from_si(extra["wall_stress_pa"], "stress", DISPLAY_UNITS["stress"])
     volume = from_si(extra["volume_m3"], "volume", DISPLAY_UNITS["volume"])
     rows = [[v.ids[i], radius[i], 100 * extra["wall_strain"][i], stress[i], volume[i],
              "distensible" if np.isfinite(extra["wall_strain"][i]) else ""] for i in rows_]
-    rows, more = _truncated(rows, limit)
     text = format_table(["vessel", f"lumen radius [{DISPLAY_UNITS['radius']}]", "strain [%]",
                          f"wall stress [{DISPLAY_UNITS['stress']}]",
                          f"volume [{DISPLAY_UNITS['volume']}]", ""], rows, digits=2)

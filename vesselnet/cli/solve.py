@@ -8,7 +8,9 @@ def add_parser(sub) -> None:
                        description="Solve the steady pressure-flow problem of a network file.")
     p.add_argument("file", help="the network file (.yaml, .json or .npz)")
     p.add_argument("--json", action="store_true", help="print the JSON result (and nothing else) on stdout")
-    p.add_argument("-o", "--output", metavar="DIR", help="write nodes.csv, vessels.csv and beds.csv into DIR")
+    p.add_argument("-o", "--output", metavar="PATH",
+                   help="write nodes.csv, vessels.csv and beds.csv into the folder PATH, or, for a PATH "
+                        "ending in .npz, every result column (SI) into one binary file (large networks)")
     p.add_argument("--solver", default="auto", choices=("auto", "superlu", "tree", "cholmod", "amg"),
                    help="linear solver (default auto: O(n) elimination for trees, else CHOLMOD when "
                         "installed, else SuperLU); the result says which ran and why")
@@ -43,7 +45,9 @@ def run(args) -> int:
         result = solve_rheology(network, method=args.solver, **options)
     else:
         result = solve(network, method=args.solver)
-    if args.output:
+    if args.output and args.output.lower().endswith(".npz"):
+        paths = [writers.write_arrays(result, args.output)]
+    elif args.output:
         paths = writers.write_tables(result, args.output)
     if args.json:
         emit(writers.dumps(writers.result_json(result)))
