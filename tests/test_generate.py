@@ -109,7 +109,7 @@ def test_generated_network_solves_with_invariants():
 
 def test_command_writes_files_that_read_back_and_solve(tmp_path, capsys):
     """`vesselnet generate` then `vesselnet solve`: same columns as the in-memory network
-    (10 significant digits in the tables), and the solve succeeds (the issue's 'done when')."""
+    (15 significant digits in the tables), and the solve succeeds (the issue's 'done when')."""
     out = tmp_path / "tissue"
     assert main(["generate", str(out), "--segments", "900", "--seed", "2024"]) == 0
     assert "wrote" in capsys.readouterr().out
@@ -118,10 +118,10 @@ def test_command_writes_files_that_read_back_and_solve(tmp_path, capsys):
     read = load_network(tmp_path / "tissue.yaml")
     made = microvascular_network(900, seed=2024)
     assert read.vessels.ids == made.vessels.ids and read.nodes.ids == made.nodes.ids
-    np.testing.assert_allclose(read.vessels.radius_in_m, made.vessels.radius_in_m, rtol=1e-9)
-    np.testing.assert_allclose(read.vessels.length_m, made.vessels.length_m, rtol=1e-9)
-    np.testing.assert_allclose(read.nodes.position_m, made.nodes.position_m, rtol=1e-9, atol=1e-15)
-    np.testing.assert_allclose(read.beds.resistance_pa_s_m3, made.beds.resistance_pa_s_m3, rtol=1e-9)
+    np.testing.assert_allclose(read.vessels.radius_in_m, made.vessels.radius_in_m, rtol=1e-14)
+    np.testing.assert_allclose(read.vessels.length_m, made.vessels.length_m, rtol=1e-14)
+    np.testing.assert_allclose(read.nodes.position_m, made.nodes.position_m, rtol=1e-14, atol=1e-15)
+    np.testing.assert_allclose(read.beds.resistance_pa_s_m3, made.beds.resistance_pa_s_m3, rtol=1e-14)
     assert read.blood == made.blood
     np.testing.assert_array_equal(read.nodes.hematocrit, made.nodes.hematocrit)   # NaN = NaN
     np.testing.assert_array_equal(read.nodes.pressure_pa, made.nodes.pressure_pa)

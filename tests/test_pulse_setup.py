@@ -1,4 +1,5 @@
-"""Tests of the pulsatile set-up helpers (vesselnet.pulsesetup) and the network writer.
+"""Tests of the pulsatile set-up helpers (vesselnet.pulsesetup); the network file they are
+written to is tested in test_networkwriter.py.
 
 Outside references: REFERENCES 5.3 [C] check table (compliance, characteristic
 impedance of a thin-walled tube), REFERENCES 5.6 [M, common practice] RCR rules
@@ -6,18 +7,15 @@ and its [C] check (1.5 mL/mmHg, 10 % share -> 0.15 mL/mmHg), REFERENCES 5.4 /
 8.1 typical values, and the steady solver (the set-up must not change it).
 """
 
-import dataclasses
-
 import numpy as np
 import pytest
 
 from vesselnet.demos import demo_path
 from vesselnet.errors import NetworkSpecError
 from vesselnet.model import Network
-from vesselnet.networkwriter import network_yaml
 from vesselnet.pulsesetup import (aortic_pressure_waveform, default_total_compliance, setup_windkessels,
                                   shape_constant_inflows)
-from vesselnet.reader import load_network, read_network_text
+from vesselnet.reader import load_network
 from vesselnet.solve import solve
 from vesselnet.units import MMHG_PA
 
@@ -164,37 +162,3 @@ def test_aortic_pressure_shape():
     assert 0.05 < t[np.argmax(p)] < 0.3
     late = (t > 0.5) & (t < 0.8)
     assert np.all(np.diff(p[late]) < 0)
-
-
-@pytest.mark.parametrize("name", ["whole_body", "leg", "collateral"])
-def test_network_file_round_trip(name, tmp_path):
-    """network_yaml -> reader gives back the same network: ids, columns (to 15 digits), tags,
-    Windkessel blocks, and the same steady solution."""
-    net = setup_windkessels(load_network(demo_path(name))).network
-    path = tmp_path / "out.yaml"
-    path.write_text(network_yaml(net))
-    back = load_network(path)
-    assert back.vessels.ids == net.vessels.ids and back.nodes.ids == net.nodes.ids
-    assert back.beds.ids == net.beds.ids
-    for section in ("vessels", "beds", "nodes"):
-        a, b = getattr(net, section), getattr(back, section)
-        for f in dataclasses.fields(a):
-            x, y = getattr(a, f.name), getattr(b, f.name)
-            if isinstance(x, np.ndarray) and f.name != "line":
-                if x.dtype.kind == "f":
-                    np.testing.assert_allclose(y, x, rtol=1e-14, equal_nan=True)
-                else:
-                    assert np.array_equal(x, y)
-    assert {t: r.tolist() for t, r in back.vessels.tags.items()} == {t: r.tolist() for t, r in net.vessels.tags.items()}
-    np.testing.assert_allclose(solve(back).pressure_pa, solve(net).pressure_pa, rtol=1e-13)
-
-
-def test_network_file_keeps_waveforms_and_refuses_occlusions():
-    net = shape_constant_inflows(two_bed_network(0.2))
-    back = read_network_text(network_yaml(net))
-    assert back.nodes.inflow_waveforms[0]["stroke_volume_m3"] == pytest.approx(
-        net.nodes.inflow_waveforms[0]["stroke_volume_m3"], rel=1e-14)
-    closed = dataclasses.replace(net, vessels=dataclasses.replace(net.vessels, occluded=np.array([False, True, False])))
-    from vesselnet.errors import VesselnetError
-    with pytest.raises(VesselnetError, match="occluded"):
-        network_yaml(closed)

@@ -25,7 +25,7 @@ def add_parser(sub) -> None:
 def run(args) -> int:
     from ..errors import NetworkSpecError, Problem
     from ..generate import describe, microvascular_network
-    from ..netwrite import write_network
+    from ..networkwriter import write_network_yaml
     from .steady import emit
 
     if not 0 <= args.hematocrit < 1:
@@ -34,7 +34,9 @@ def run(args) -> int:
                                         "for example 0.45")])
     network = microvascular_network(args.segments, args.seed, viscosity_law=args.law,
                                     separation=args.separation, hematocrit=args.hematocrit)
-    paths = write_network(network, args.out, comment=describe(network, args.segments, args.seed))
+    out = args.out if args.out.endswith(".yaml") else args.out + ".yaml"
+    paths = write_network_yaml(network, out, tables=True,
+                               comment=describe(network, args.segments, args.seed))
     emit(f"wrote {', '.join(str(p) for p in paths)}: {len(network.vessels)} vessels, "
          f"{len(network.nodes)} nodes")
     return 0

@@ -20,7 +20,7 @@ def add_parser(sub) -> None:
 
 def run(args) -> int:
     from .. import writers
-    from ..networkwriter import network_yaml
+    from ..networkwriter import write_network_yaml
     from ..pulsereport import setup_json
     from ..pulsesetup import setup_windkessels
     from ..reader import load_network
@@ -30,12 +30,12 @@ def run(args) -> int:
     net = load_network(args.file)
     compliance = None if args.total_compliance is None else args.total_compliance * 1e-6 / MMHG_PA
     setup = setup_windkessels(net, total_compliance_m3_pa=compliance)
-    writers.atomic_write(args.output, network_yaml(setup.network))
+    paths = write_network_yaml(setup.network, args.output)
     if args.json:
         emit(writers.dumps({"vesselnet": writers.FORMAT_VERSION, "network": net.name,
                             "units": {"resistance": "mmHg*s/mL", "compliance": "mL/mmHg"},
                             "windkessel": setup_json(setup), "output": str(args.output)}))
     else:
         emit(f"{net.name}: {setup.summary()}")
-        emit(f"wrote {args.output}")
+        emit(f"wrote {', '.join(str(p) for p in paths)}")
     return 0
