@@ -82,10 +82,10 @@ def run_case(path: str, solver: str, out_dir: str) -> dict:
     class Timed(Factorization):
         spent = 0.0
 
-        def solve(self, A, rhs):
+        def solve(self, A, rhs, structure=None):
             start = time.perf_counter()
             try:
-                return super().solve(A, rhs)
+                return super().solve(A, rhs, structure)
             finally:
                 self.spent += time.perf_counter() - start
 
@@ -191,6 +191,18 @@ def child(args: list[str], timeout: float | None = None) -> dict | None:
     return json.loads(done.stdout.strip().splitlines()[-1])
 
 
+def cli_seconds(path: Path, out: Path, repeats: int) -> float:
+    """Best wall time of the command ``vesselnet solve FILE -o OUT.npz`` (interpreter start,
+    imports, the terminal report included)."""
+    best = float("inf")
+    for _ in range(repeats):
+        t = time.perf_counter()
+        subprocess.run([sys.executable, "-m", "vesselnet", "solve", str(path), "-o", str(out)],
+                       capture_output=True, check=True, cwd=tempfile.gettempdir())
+        best = min(best, time.perf_counter() - t)
+    return best
+
+
 def help_seconds() -> float:
     """Median wall time of ``python -m vesselnet --help`` over five runs."""
     times = []
@@ -211,6 +223,8 @@ def main() -> int:
     parser.add_argument("--repeats", type=int, default=3,
                         help="fresh processes per figure; the minimum time is reported (default 3)")
     parser.add_argument("--workdir", help="keep the generated files here (default: a temporary folder)")
+    parser.add_argument("--cli", action="store_true",
+                        help="also time the command 'vesselnet solve FILE -o OUT.npz' as a whole")
     parser.add_argument("--case", nargs=3, help=argparse.SUPPRESS)
     parser.add_argument("--baseline", help=argparse.SUPPRESS)
     args = parser.parse_args()
@@ -228,10 +242,11 @@ def main() -> int:
           f"{args.repeats} fresh processes), peak MiB per process")
     print("e2e = read + assemble + solve + write (csv: the tables of solve -o; npz: write_arrays); "
           "after read = assemble + solve + write npz; base = baseline assemble + solve "
-          "(COO -> CSR, spsolve defaults); reuse solve = linear solve of a second sample")
+          "(COO -> CSR, spsolve defaults); reuse solve = linear solve of a second sample; "
+          "cli npz = the command 'vesselnet solve FILE -o OUT.npz' (with --cli)")
     header = ("topology", "N", "input", "read", "assemble", "solve", "write csv", "write npz",
               "e2e csv", "e2e npz", "after read", "peak MiB", "base asm", "base solve", "base",
-              "base MiB", "e2e csv/base", "e2e npz/base", "reuse solve", "solver")
+              "base MiB", "e2e csv/base", "e2e npz/base", "reuse solve", "cli npz", "solver")
     print(" | ".join(header))
     print(" | ".join("---" for _ in header))
     for topology in args.topologies.split(","):
@@ -252,7 +267,9 @@ def main() -> int:
                           f"{base['peak_mib']:.0f}" if base else "-",
                           f"{r['e2e'] / b:.2f}" if base else "-",
                           f"{r['e2e_npz'] / b:.2f}" if base else "-",
-                          f"{r['reuse_solve']:.3f}", r["solver"]]
+                          f"{r['reuse_solve']:.3f}",
+                          f"{cli_seconds(paths[form], out / 'cli.npz', args.repeats):.2f}"
+                          if args.cli else "-", r["solver"]]
                 if base and abs(r["pressure_sum"] - base["pressure_sum"]) > 1e-9 * abs(base["pressure_sum"]):
                     cells[-1] += " (DISAGREES with the baseline)"
                 print(" | ".join(cells), flush=True)

@@ -34,6 +34,26 @@ def test_sparse_pattern_equals_dense_stamping(seed):
                                rtol=1e-13, atol=0)
 
 
+@pytest.mark.parametrize("parallel", [False, True])
+def test_pattern_with_and_without_parallel_elements(parallel):
+    """Both ways to the structure (distinct edges found by scipy alone, or parallel
+    elements merged by a sort) against the dense stamping; elements from a node to
+    itself stamp nothing off the diagonal, nor anything at all."""
+    rng = np.random.default_rng(60221 + parallel)
+    n = 300
+    a = np.arange(1, n)
+    b = rng.integers(0, a)                          # a tree: each node joined to an earlier one
+    if parallel:
+        a, b = np.concatenate([a, a[:50]]), np.concatenate([b, b[:50]])
+    a, b = np.concatenate([a, [7, 9], a[:20]]), np.concatenate([b, [7, 9], np.full(20, -1)])
+    g = rng.uniform(1e-12, 1e-8, len(a))
+    free = rng.random(n) < 0.9
+    pattern = NodalPattern(n, a, b, free)
+    A = pattern.linear_matrix(g)
+    np.testing.assert_allclose(A.toarray(), dense_matrix(n, a, b, g, free), rtol=1e-13, atol=1e-30)
+    assert A.nnz == len(pattern.structure.rows)
+
+
 def test_complex_stamps_fill_the_same_pattern():
     """Complex values (one harmonic of pulsatile work) stamp real and imaginary parts alike."""
     rng = np.random.default_rng(8080)

@@ -57,10 +57,11 @@ class NodalPattern:
         both = free_a & free_b
         keep = np.concatenate([free_a, both, both, free_b])
         self._keep = keep
-        slot, self._indices, self._indptr, self._transpose, self._diag = _structure(self.n_free, ra, rb)
-        self._slot = slot[keep]
+        self._slot, self._indices, self._indptr, self._transpose, self._diag = _structure(
+            self.n_free, ra, rb)
         self._nnz = len(self._indices)
         self._linear_structure = None
+        self._b_or_ground = np.where(self.b < 0, self.n_nodes, self.b)
 
     @property
     def structure(self):
@@ -96,8 +97,7 @@ class NodalPattern:
         ``q_into_b`` defaults to ``q_out_of_a`` (an element that stores nothing).
         """
         q_in = q_out_of_a if q_into_b is None else q_into_b
-        grounded = self.b < 0
-        b = np.where(grounded, self.n_nodes, self.b)
+        b = self._b_or_ground
         out = np.bincount(self.a, weights=np.real(q_out_of_a), minlength=self.n_nodes + 1)
         out = out - np.bincount(b, weights=np.real(q_in), minlength=self.n_nodes + 1)
         if np.iscomplexobj(q_out_of_a) or np.iscomplexobj(q_in):
@@ -108,38 +108,49 @@ class NodalPattern:
 
 
 def _structure(n: int, ra: np.ndarray, rb: np.ndarray):
-    """CSC structure of the free-node matrix and the slot of every stamp.
+    """CSC structure of the free-node matrix and the slot of every kept stamp.
 
     Entries are the diagonal (every free node) and both orientations of each
-    distinct free-free edge, so parallel elements share their slots.  One sort
-    of the edge keys; the rest is scipy's compiled COO -> CSC conversion.
-    Returns the slots of the stamps aa, ab, ba, bb of every element (-1 where
-    a row or column is not free), the indices, the indptr, the slot of each
-    entry's transpose and the slots of the diagonal.
+    distinct free-free edge, so parallel elements share their slots.  The
+    structure comes from scipy's compiled COO -> CSC conversion; only when
+    it finds parallel elements (fewer entries than stamps) are the edges
+    made distinct by a sort of their keys.  Returns, for the stamps kept by
+    :class:`NodalPattern` (aa where ``a`` is free, ab and ba where both are,
+    bb where ``b`` is), their slots; then the indices, the indptr, the slot
+    of each entry's transpose and the slots of the diagonal.
     """
-    width = max(n, 1)
-    both = (ra >= 0) & (rb >= 0) & (ra != rb)
-    lo = np.minimum(ra[both], rb[both])
-    hi = np.maximum(ra[both], rb[both])
-    edge_key, edge = np.unique(lo * width + hi, return_inverse=True)
-    u = len(edge_key)
-    e_lo, e_hi = edge_key // width, edge_key % width
+    free_a, free_b = ra >= 0, rb >= 0
+    both = free_a & free_b
+    ra_both, rb_both = ra[both], rb[both]
+    loop = ra_both == rb_both                  # an element from a node to itself: diagonal only
+    lo = np.minimum(ra_both[~loop], rb_both[~loop])
+    hi = np.maximum(ra_both[~loop], rb_both[~loop])
     diagonal = np.arange(n)
-    csc = sp.csc_matrix((np.arange(n + 2 * u, dtype=float),
-                         (np.concatenate([diagonal, e_lo, e_hi]),
-                          np.concatenate([diagonal, e_hi, e_lo]))), shape=(n, n))
-    csc.sort_indices()
+
+    def compressed(e_lo, e_hi):
+        u = len(e_lo)
+        return sp.csc_matrix((np.arange(n + 2 * u, dtype=float),
+                              (np.concatenate([diagonal, e_lo, e_hi]),
+                               np.concatenate([diagonal, e_hi, e_lo]))), shape=(n, n))
+
+    csc = compressed(lo, hi)
+    u = len(lo)
+    edge = np.arange(u)
+    if csc.nnz != n + 2 * u:                   # parallel elements: one edge for each pair of nodes
+        width = max(n, 1)
+        edge_key, edge = np.unique(lo * width + hi, return_inverse=True)
+        edge = edge.reshape(-1)
+        u = len(edge_key)
+        csc = compressed(edge_key // width, edge_key % width)
     position = np.empty(n + 2 * u, dtype=np.int64)
     position[csc.data.astype(np.int64)] = np.arange(n + 2 * u)
-    m = len(ra)
-    aa = np.where(ra >= 0, position[np.maximum(ra, 0)], -1) if n else np.full(m, -1)
-    bb = np.where(rb >= 0, position[np.maximum(rb, 0)], -1) if n else np.full(m, -1)
-    ab = np.where((ra >= 0) & (ra == rb), aa, -1)
-    ba = ab.copy()
-    forward = ra[both] < rb[both]
-    ab[both] = position[n + edge.reshape(-1) + np.where(forward, 0, u)]
-    ba[both] = position[n + edge.reshape(-1) + np.where(forward, u, 0)]
-    slot = np.concatenate([aa, ab, ba, bb])
+    forward = ra_both[~loop] < rb_both[~loop]
+    ab = np.empty(len(ra_both), dtype=np.int64)
+    ba = np.empty(len(ra_both), dtype=np.int64)
+    ab[loop] = ba[loop] = position[ra_both[loop]]
+    ab[~loop] = position[n + edge + np.where(forward, 0, u)]
+    ba[~loop] = position[n + edge + np.where(forward, u, 0)]
+    slot = np.concatenate([position[ra[free_a]], ab, ba, position[rb[free_b]]])
     transpose = np.empty(n + 2 * u, dtype=np.int64)
     transpose[position] = position[np.concatenate([diagonal, n + u + np.arange(u), n + np.arange(u)])]
     return (slot, csc.indices.astype(np.int32), csc.indptr.astype(np.int32), transpose,

@@ -142,6 +142,12 @@ class Structure:
 
     def bfs(self):
         """Breadth-first order and parents from each part's first node (parent -1 at roots)."""
+        if self._bfs is None and self.n_parts == 1:     # one part: no joining node needed
+            order, parent = breadth_first_order(self.graph, 0, directed=True,
+                                                return_predecessors=True)
+            parent = parent.astype(np.int64)
+            parent[parent < 0] = -1
+            self._bfs = (order, parent)
         if self._bfs is None:
             n = self.n
             first = np.full(self.n_parts, n, dtype=np.int64)
