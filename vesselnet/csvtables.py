@@ -105,6 +105,8 @@ def read_table(path, section: str, units: dict[str, str], *, shown_as: str | Non
         problem(0, "", f"cannot read the table: {getattr(exc, 'strerror', None) or exc}",
                 "check the path (relative to the YAML file) and that it is UTF-8 CSV")
         return out
+    # unquoted plain tables break lines only between rows: one C-level test for every cell
+    printable = bool(split) and text.replace("\r\n", "\n").replace("\n", "").isprintable()
     if split is None and not rows:
         problem(1, "", "the table is empty", "give a header line and one row per item")
         return out
@@ -145,7 +147,10 @@ def read_table(path, section: str, units: dict[str, str], *, shown_as: str | Non
             out.columns[target] = texts = [c.strip() for c in raw] if not split or split.padded \
                 else list(raw)
             needed = col_name in REQUIRED[section]
-            bad = [i for i, t in enumerate(texts) if has_control(t) or needed and not t]
+            if printable:      # no control character anywhere: look for empty cells only
+                bad = [i for i, t in enumerate(texts) if not t] if needed and "" in texts else []
+            else:
+                bad = [i for i, t in enumerate(texts) if has_control(t) or needed and not t]
             for i in bad[:MAX_PROBLEMS_PER_COLUMN]:
                 what = "must not be empty" if not texts[i] else \
                     f"must not contain control characters, got {texts[i]!r}"

@@ -21,6 +21,7 @@ Examples
 from __future__ import annotations
 
 import dataclasses
+import operator
 from pathlib import Path
 
 import numpy as np
@@ -526,7 +527,8 @@ def check_references(fr: FieldReader, vessels, nodes, beds, origins=None) -> Non
 
     _duplicates(add, vessels, "vessels")
     _duplicates(add, beds, "beds")
-    for i, (vid, a, b) in enumerate(zip(vessels["id"], vessels["from"], vessels["to"])):
+    loops = any(map(operator.eq, vessels["from"], vessels["to"]))    # one C-level pass first
+    for i, (vid, a, b) in enumerate(zip(vessels["id"], vessels["from"], vessels["to"]) if loops else ()):
         if a and a == b:
             add("vessels", vessels, i, f"vessels[{i}] '{vid}'",
                 f"the vessel starts and ends at node '{a}' (a self-loop)", "join two different nodes")
