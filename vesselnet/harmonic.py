@@ -33,8 +33,9 @@ from __future__ import annotations
 import numpy as np
 import scipy.sparse as sp
 
-from .assembly import NodalPattern
+from .assembly import NodalPattern, ScaledFactor
 from .errors import SolveError
+from .linsolve import Factorization
 from .model import Network
 from .result import SteadyResult
 from .solve import vessel_resistance
@@ -66,6 +67,17 @@ class HarmonicNetwork:
         Supplies each vessel's viscosity and each lesion's mean flow.
     taper_subsegments : int
         Uniform pieces per tapered vessel (:func:`vesselnet.transmission.segment_admittance`).
+    method : {'auto', 'superlu', 'tree', 'cholmod', 'amg'}
+        Linear solver of the nodal systems (:class:`vesselnet.linsolve.Factorization`);
+        the matrices are complex, so ``auto`` eliminates forests of at least
+        :data:`~vesselnet.linsolve.SMALL_SYSTEM` nodes level by level and
+        factorises the rest by SuperLU with partial pivoting.
+
+    Attributes
+    ----------
+    factorization : Factorization
+        One for every frequency (the pattern is the same): its analysis is made
+        once, and its ``description`` and ``reason`` say what ran last.
 
     Notes
     -----
@@ -80,9 +92,10 @@ class HarmonicNetwork:
     """
 
     def __init__(self, network: Network, steady: SteadyResult, *,
-                 taper_subsegments: int = DEFAULT_TAPER_SUBSEGMENTS):
+                 taper_subsegments: int = DEFAULT_TAPER_SUBSEGMENTS, method: str = "auto"):
         self.network = network
         self.taper_subsegments = int(taper_subsegments)
+        self.factorization = Factorization(method)
         v, beds, nodes = network.vessels, network.beds, network.nodes
         open_ = ~v.occluded
         lesion = open_ & ~np.isnan(v.stenosis_reduction)
@@ -187,6 +200,46 @@ class HarmonicNetwork:
             a[has], b[has], d[has] = na, nb, nd
         return a, b, d
 
+    @property
+    def solver(self) -> str:
+        """The linear solver of the nodal systems, ``method (ordering)`` (empty before a solve)."""
+        return self.factorization.description if self.factorization.method else ""
+
+    def _linear_solve(self, A: sp.csc_matrix, rhs: np.ndarray) -> np.ndarray:
+        """``A x = rhs`` for every column, then one step of iterative refinement.
+
+        The nodal matrices of whole-body networks span many decades of
+        conductance; the refinement step, one more solve for the residual,
+        recovers digits the elimination loses.
+
+        :attr:`factorization` chooses the method at the first frequency.  A
+        forest is eliminated level by level, O(n) per right side, so every
+        column and the refinement go through it.  Otherwise it factorises by
+        SuperLU with partial pivoting after scaling by ``diag(|A_ii|)^(-1/2)``
+        on both sides; as it factorises again on every call and takes one
+        right side, the columns and the refinement share one
+        :class:`~vesselnet.assembly.ScaledFactor` instead (the same scaling,
+        ordering and pivoting): one factorisation per frequency.
+        """
+        f = self.factorization
+        try:
+            if not f.method:
+                f.solve(A, rhs[:, 0])                  # the first frequency: choose the method
+            if f.method == "tree":
+                def solve(b):
+                    return np.stack([f.solve(A, b[:, j]) for j in range(b.shape[1])], axis=1)
+            else:
+                factor = ScaledFactor(A)
+                d = factor.d[:, None]
+
+                def solve(b):
+                    return d * factor.lu.solve(d * b)
+            x = solve(rhs)
+            return x + solve(rhs - A @ x)
+        except RuntimeError as exc:  # SuperLU: "Factor is exactly singular"
+            raise SolveError(f"the harmonic nodal system is singular ({exc}); a part of the network "
+                             "is held only by zero admittances") from None
+
     def solve(self, omega_rad_s: float, injection_m3_s: np.ndarray, pressure_pa: np.ndarray,
               ground_pa: np.ndarray):
         """Solve the nodal system for one or more source columns.
@@ -224,7 +277,7 @@ class HarmonicNetwork:
             rhs[:, j] = (injection_m3_s[:, j] - contribution)[pattern.free_nodes]
         pressure = known.copy()
         if pattern.n_free:
-            pressure[pattern.free_nodes] = _lu_solve(pattern.matrix(d_aa, d_ab, d_ba, d_bb), rhs)
+            pressure[pattern.free_nodes] = self._linear_solve(pattern.matrix(d_aa, d_ab, d_ba, d_bb), rhs)
         if not np.isfinite(pressure).all():
             raise SolveError("the harmonic solve returned non-finite pressures; the system is "
                              "singular or too badly conditioned")
@@ -237,22 +290,6 @@ class HarmonicNetwork:
                               for j in range(m)])
         pressure[self.cut_off] = np.nan
         return pressure, q_from, q_to, imbalance
-
-
-def _lu_solve(A: sp.csc_matrix, rhs: np.ndarray) -> np.ndarray:
-    """Complex sparse LU (SuperLU, symmetric ordering) with symmetric diagonal scaling.
-
-    One step of iterative refinement on the same factors follows: the nodal
-    matrices of whole-body networks span many decades of conductance.
-    """
-    import scipy.sparse.linalg as spla
-
-    diag = np.abs(A.diagonal())
-    d = 1.0 / np.sqrt(np.where(diag > 0, diag, 1.0))
-    D = sp.diags(d)
-    lu = spla.splu((D @ A @ D).tocsc(), permc_spec="MMD_AT_PLUS_A")
-    x = d[:, None] * lu.solve(d[:, None] * rhs)
-    return x + d[:, None] * lu.solve(d[:, None] * (rhs - A @ x))
 
 
 def solve_harmonic(network: Network, omega_rad_s: float, *, steady: SteadyResult,

@@ -1,14 +1,16 @@
-"""Many steady solves of one topology: structure and ordering worked out once.
+"""Many steady solves of one topology: structure and solver analysis worked out once.
 
 Monte Carlo samples change values (radii, lengths, bed resistances, lesion
 severity), never which nodes are joined.  :class:`PreparedSolver` therefore
-builds the sparse structure of the free-node system and its fill-reducing
-ordering (minimum degree on A + A^T) once; each solve then only fills the
-matrix with one ``bincount`` into a structure that is already in elimination
-order and factorises it with that order (``permc_spec="NATURAL"``), skipping
-the ordering step.  The Newton iteration (for lesions) is that of
-:func:`vesselnet.solve.solve_groups`, with the same line search, convergence
-test and result checks.
+builds the free-node :class:`~vesselnet.assembly.NodalPattern` and one
+:class:`~vesselnet.linsolve.Factorization` once.  The factorization picks its
+method from the structure (level-by-level elimination for a tree, CHOLMOD,
+multigrid or SuperLU with a fill-reducing ordering for loops, see
+:mod:`vesselnet.linsolve`) and keeps its analysis (orderings, the symbolic
+factorisation) for every later Newton step and sample; each solve then only
+fills the matrix with one ``bincount`` and factorises it numerically.  The
+Newton iteration (for lesions) is that of :func:`vesselnet.solve.solve_groups`,
+with the same line search, convergence test and result checks.
 
 Examples
 --------
@@ -35,25 +37,16 @@ Examples
 from __future__ import annotations
 
 import numpy as np
-import scipy.sparse as sp
-import scipy.sparse.linalg as spla
 
 from .assembly import NodalPattern
 from .errors import SolveError
+from .linsolve import Factorization
 from .model import Network
 from .result import SteadyResult
 from .solve import (DEFAULT_MAX_ITERATIONS, DEFAULT_TOLERANCE, element_groups, finish, flow_scale,
                     initial_pressure, line_search, non_convergence, solve)
 from .topology import connected_parts
-from .walls import with_wall_outputs
-
-SPARSE_FACTOR_OPTIONS = {"relax": 1, "panel_size": 1}
-"""SuperLU supernode settings for factors with little fill (trees, sparse loops): tiny
-supernodes are 2-3 times faster there than the defaults (measured on 1e4-vessel trees
-and on trees with 2 % extra loops, about 5 nonzeros of L+U per row)."""
-
-DENSE_FILL = 20.0
-"""Above this many nonzeros of L+U per row SuperLU's default supernodes are kept."""
+from .walls import rigid_groups, with_wall_outputs
 
 
 def structure_key(network: Network) -> tuple:
@@ -77,21 +70,29 @@ class PreparedSolver:
         and lesion-bearing vessels (values may differ).
     viscosity_pa_s : ndarray, shape (n_vessels,), optional
         Viscosity per vessel (default: the blood's constant viscosity).
+    method : {'auto', 'superlu', 'tree', 'cholmod', 'amg'}
+        Linear solver (see :class:`vesselnet.linsolve.Factorization`).
+
+    Attributes
+    ----------
+    factorization : Factorization
+        Shared by every solve; results report its ``description`` and
+        ``reason`` as ``solver`` and ``solver_reason``.
 
     Notes
     -----
     Networks with distensible vessels are passed to
-    :func:`vesselnet.solve.solve` as they are (its two-stage start from the
-    rigid solution is not repeated here).
-    The choice of supernode settings depends only on the structure, so
-    every process preparing the same network computes identical numbers.
-    The symmetric diagonal scaling of :func:`vesselnet.assembly.solve_sparse`
-    is applied to the stored values directly, so each solve costs one fill,
-    one numeric factorisation in a fixed order and one triangular solve per
-    Newton step.
+    :func:`vesselnet.solve.solve` with the shared factorization (its
+    two-stage start from the rigid solution is not repeated here).
+    The factorization makes its analysis on the reference network's
+    matrix when the solver is prepared, so every process preparing the same
+    network computes identical numbers for a sample, whichever samples it
+    solved before.  Each Newton step costs one fill, one numeric
+    factorisation (or one O(n) elimination of a tree) and its solve.
     """
 
-    def __init__(self, network: Network, *, viscosity_pa_s: np.ndarray | None = None):
+    def __init__(self, network: Network, *, viscosity_pa_s: np.ndarray | None = None,
+                 method: str = "auto"):
         self.key = structure_key(network)
         self.distensible = bool((network.vessels.distensible & ~network.vessels.occluded).any())
         n_vessels = len(network.vessels)
@@ -100,56 +101,42 @@ class PreparedSolver:
         self.viscosity_pa_s = np.asarray(viscosity_pa_s, dtype=float)
         groups = element_groups(network, self.viscosity_pa_s)
         nodes = network.nodes
-        n = len(nodes)
         parts = connected_parts(network)
         self.cut_off = ~parts.referenced[parts.label]
         self.fixed = ~np.isnan(nodes.pressure_pa)
         self.free = ~self.fixed & ~self.cut_off
         a = np.concatenate([g.a for g in groups])
         b = np.concatenate([g.b for g in groups])
-        self.pattern = NodalPattern(n, a, b, self.free)
-        self.elimination = self.pattern.free_nodes[self._ordering(groups)]
-        n_free = len(self.elimination)
-        relabel = np.empty(n, dtype=np.int64)
-        others = np.setdiff1d(np.arange(n), self.elimination)
-        relabel[self.elimination] = np.arange(n_free)
-        relabel[others] = np.arange(n_free, n)
-        ordered_free = np.zeros(n, dtype=bool)
-        ordered_free[:n_free] = True
-        self.ordered = NodalPattern(n, relabel[a], np.where(b >= 0, relabel[np.maximum(b, 0)], -1),
-                                    ordered_free)
-        probe = self.ordered.matrix(*(np.ones(len(a)),) * 4)
-        self._row = probe.indices.copy()
-        self._col = np.repeat(np.arange(n_free), np.diff(probe.indptr))
-        self._diagonal_slot = np.flatnonzero(self._row == self._col)
+        self.pattern = NodalPattern(len(nodes), a, b, self.free)
+        self.factorization = Factorization(method)
+        self._analyse(rigid_groups(groups))
 
-    def _ordering(self, groups) -> np.ndarray:
-        """Minimum-degree (A + A^T) ordering of the free rows, from the reference values."""
+    def _analyse(self, groups) -> None:
+        """The factorization's first solve, on the reference matrix at zero pressure.
+
+        Rigid walls stand in for distensible ones (a symmetric matrix, as the
+        rigid-wall start of :func:`vesselnet.solve.solve` gives).  A singular
+        reference is left to the solve that meets it, which says so.
+        """
         if self.pattern.n_free == 0:
-            return np.zeros(0, dtype=np.int64)
+            return
         parts = [g.evaluate(np.zeros(self.pattern.n_nodes)) for g in groups]
         dqa = np.concatenate([x[1] for x in parts])
         dqb = np.concatenate([x[2] for x in parts])
-        A = self.pattern.matrix(dqa, dqb, -dqa, -dqb)
-        diag = np.abs(A.diagonal())
-        d = sp.diags(1.0 / np.sqrt(np.where(diag > 0, diag, 1.0)))
-        lu = spla.splu((d @ A @ d).tocsc(), permc_spec="MMD_AT_PLUS_A")
-        fill = (lu.L.nnz + lu.U.nnz) / max(A.shape[0], 1)
-        self._lu_options = SPARSE_FACTOR_OPTIONS if fill < DENSE_FILL else {}
-        return np.argsort(lu.perm_c)
+        try:
+            self.factorization.solve(self.pattern.matrix(dqa, dqb, -dqa, -dqb),
+                                     np.ones(self.pattern.n_free))
+        except (RuntimeError, SolveError):
+            pass
 
-    def _linear_solve(self, dqa, dqb, rhs_free_order: np.ndarray) -> np.ndarray:
+    def _linear_solve(self, dqa, dqb, rhs: np.ndarray) -> np.ndarray:
         """Solve J x = rhs for the free nodes (rhs and x in ascending free-node order)."""
-        A = self.ordered.matrix(dqa, dqb, -dqa, -dqb)
-        diag = np.abs(A.data[self._diagonal_slot])
-        d = 1.0 / np.sqrt(np.where(diag > 0, diag, 1.0))
-        A.data *= d[self._row] * d[self._col]
-        lu = spla.splu(A, permc_spec="NATURAL", **self._lu_options)
-        full = np.empty(self.pattern.n_nodes)
-        full[self.free] = rhs_free_order
-        y = lu.solve(d * full[self.elimination])
-        full[self.elimination] = d * y
-        return full[self.free]
+        try:
+            return self.factorization.solve(self.pattern.matrix(dqa, dqb, -dqa, -dqb), rhs)
+        except RuntimeError as exc:  # SuperLU: "Factor is exactly singular"
+            raise SolveError(f"the Newton system of this sample is singular ({exc}); a part of "
+                             "the network has no pressure level: give it a fixed pressure or a "
+                             "fixed bed") from None
 
     def solve(self, network: Network, *, tolerance: float = DEFAULT_TOLERANCE,
               max_iterations: int = DEFAULT_MAX_ITERATIONS) -> SteadyResult:
@@ -172,7 +159,7 @@ class PreparedSolver:
                              "prepare a solver for it")
         if self.distensible:
             return solve(network, viscosity_pa_s=self.viscosity_pa_s, tolerance=tolerance,
-                         max_iterations=max_iterations)
+                         max_iterations=max_iterations, factorization=self.factorization)
         groups = element_groups(network, self.viscosity_pa_s)
         nodes = network.nodes
         free, fixed, cut_off, pattern = self.free, self.fixed, self.cut_off, self.pattern
@@ -205,6 +192,6 @@ class PreparedSolver:
                 raise SolveError("the linear solve returned non-finite pressures; the system is "
                                  "singular or too badly conditioned")
         result = finish(network, groups, pressure, q, imbalance, free, fixed, cut_off,
-                        self.viscosity_pa_s, iterations, history)
+                        self.viscosity_pa_s, iterations, history, linear=self.factorization)
         return with_wall_outputs(result, groups)
 
