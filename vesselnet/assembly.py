@@ -142,19 +142,19 @@ def _structure(n: int, ra: np.ndarray, rb: np.ndarray):
         edge = edge.reshape(-1)
         u = len(edge_key)
         csc = compressed(edge_key // width, edge_key % width)
-    position = np.empty(n + 2 * u, dtype=np.int64)
-    position[csc.data.astype(np.int64)] = np.arange(n + 2 * u)
+    index = csc.indices.dtype                  # int32 below 2^31 entries: half the memory
+    position = np.empty(n + 2 * u, dtype=index)
+    position[csc.data.astype(np.int64)] = np.arange(n + 2 * u, dtype=index)
     forward = ra_both[~loop] < rb_both[~loop]
-    ab = np.empty(len(ra_both), dtype=np.int64)
-    ba = np.empty(len(ra_both), dtype=np.int64)
+    ab = np.empty(len(ra_both), dtype=index)
+    ba = np.empty(len(ra_both), dtype=index)
     ab[loop] = ba[loop] = position[ra_both[loop]]
     ab[~loop] = position[n + edge + np.where(forward, 0, u)]
     ba[~loop] = position[n + edge + np.where(forward, u, 0)]
     slot = np.concatenate([position[ra[free_a]], ab, ba, position[rb[free_b]]])
-    transpose = np.empty(n + 2 * u, dtype=np.int64)
+    transpose = np.empty(n + 2 * u, dtype=index)
     transpose[position] = position[np.concatenate([diagonal, n + u + np.arange(u), n + np.arange(u)])]
-    return (slot, csc.indices.astype(np.int32), csc.indptr.astype(np.int32), transpose,
-            position[:n].copy())
+    return slot, csc.indices, csc.indptr, transpose, position[:n].copy()
 
 
 def solve_sparse(A: sp.spmatrix, rhs: np.ndarray) -> np.ndarray:

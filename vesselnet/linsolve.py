@@ -107,8 +107,10 @@ class Structure:
         self.indptr, self.indices = A.indptr, A.indices
         if transpose is None:      # a caller's matrix: keep a structure of our own
             self.indptr, self.indices = A.indptr.copy(), A.indices.copy()
-        self.cols = np.repeat(np.arange(n), np.diff(self.indptr))
-        self.rows = self.indices.astype(np.int64)
+        # index arrays in the indices' own type (int32 up to 2^31 entries): half the memory,
+        # and fresh memory is what large solves spend most on
+        self.cols = np.repeat(np.arange(n, dtype=self.indices.dtype), np.diff(self.indptr))
+        self.rows = self.indices
         nnz = len(self.rows)
         if transpose is None:
             # structurally symmetric: the CSR of the positions is the transpose map
@@ -119,7 +121,7 @@ class Structure:
                     and np.array_equal(positions.indices, self.indices)):
                 raise SolveError("linear solve: the matrix is not structurally symmetric; it is not a "
                                  "nodal matrix")
-            transpose = positions.data.astype(np.int64)
+            transpose = positions.data.astype(self.indices.dtype)
         self.transpose = transpose
         if diag is None:
             diag = np.flatnonzero(self.rows == self.cols)
