@@ -223,6 +223,8 @@ def main() -> int:
     parser.add_argument("--repeats", type=int, default=3,
                         help="fresh processes per figure; the minimum time is reported (default 3)")
     parser.add_argument("--workdir", help="keep the generated files here (default: a temporary folder)")
+    parser.add_argument("--baseline-timeout", type=float, default=BASELINE_TIMEOUT_S,
+                        help=f"seconds before the baseline solve is given up (default {BASELINE_TIMEOUT_S})")
     parser.add_argument("--cli", action="store_true",
                         help="also time the command 'vesselnet solve FILE -o OUT.npz' as a whole")
     parser.add_argument("--case", nargs=3, help=argparse.SUPPRESS)
@@ -252,12 +254,12 @@ def main() -> int:
     for topology in args.topologies.split(","):
         for n in sizes:
             paths = write_inputs(work / f"{topology}-{n}", topology, n)
-            base = best_of(args.repeats, ["--baseline", str(paths["npz"])], timeout=BASELINE_TIMEOUT_S)
+            base = best_of(args.repeats, ["--baseline", str(paths["npz"])], timeout=args.baseline_timeout)
             for form in args.formats.split(","):
                 out = work / f"{topology}-{n}" / f"out-{form}"
                 r = best_of(args.repeats, ["--case", str(paths[form]), args.solver, str(out)])
                 b = base["total"] if base else None
-                never = f"> {BASELINE_TIMEOUT_S}"
+                never = f"> {args.baseline_timeout:g}"
                 cells = [topology, f"{n:.0e}", form] + [f"{r[k]:.3f}" for k in (
                     "read", "assemble", "solve", "write", "write_npz", "e2e", "e2e_npz", "after_read")]
                 cells += [f"{r['peak_mib']:.0f}",
