@@ -48,8 +48,9 @@ class NodalPattern:
         self.free = np.asarray(free, dtype=bool)
         self.free_nodes = np.flatnonzero(self.free)
         self.n_free = len(self.free_nodes)
-        row_of = np.full(self.n_nodes + 1, -1, dtype=np.int64)  # index n_nodes = ground
-        row_of[self.free_nodes] = np.arange(self.n_free)
+        rows = np.int32 if self.n_nodes < 2**31 - 1 else np.int64
+        row_of = np.full(self.n_nodes + 1, -1, dtype=rows)  # index n_nodes = ground
+        row_of[self.free_nodes] = np.arange(self.n_free, dtype=rows)
         self.row_of = row_of
         ra, rb = row_of[self.a], row_of[self.b]
         # stamp order: aa, ab, ba, bb; a stamp is kept when its row and column are free
@@ -125,11 +126,12 @@ def _structure(n: int, ra: np.ndarray, rb: np.ndarray):
     loop = ra_both == rb_both                  # an element from a node to itself: diagonal only
     lo = np.minimum(ra_both[~loop], rb_both[~loop])
     hi = np.maximum(ra_both[~loop], rb_both[~loop])
-    diagonal = np.arange(n)
+    diagonal = np.arange(n, dtype=ra.dtype)
 
     def compressed(e_lo, e_hi):
         u = len(e_lo)
-        return sp.csc_matrix((np.arange(n + 2 * u, dtype=float),
+        entries = np.int32 if n + 2 * u < 2**31 - 1 else np.int64
+        return sp.csc_matrix((np.arange(n + 2 * u, dtype=entries),
                               (np.concatenate([diagonal, e_lo, e_hi]),
                                np.concatenate([diagonal, e_hi, e_lo]))), shape=(n, n))
 
@@ -138,13 +140,13 @@ def _structure(n: int, ra: np.ndarray, rb: np.ndarray):
     edge = np.arange(u)
     if csc.nnz != n + 2 * u:                   # parallel elements: one edge for each pair of nodes
         width = max(n, 1)
-        edge_key, edge = np.unique(lo * width + hi, return_inverse=True)
+        edge_key, edge = np.unique(lo.astype(np.int64) * width + hi, return_inverse=True)
         edge = edge.reshape(-1)
         u = len(edge_key)
         csc = compressed(edge_key // width, edge_key % width)
     index = csc.indices.dtype                  # int32 below 2^31 entries: half the memory
     position = np.empty(n + 2 * u, dtype=index)
-    position[csc.data.astype(np.int64)] = np.arange(n + 2 * u, dtype=index)
+    position[csc.data] = np.arange(n + 2 * u, dtype=index)
     forward = ra_both[~loop] < rb_both[~loop]
     ab = np.empty(len(ra_both), dtype=index)
     ba = np.empty(len(ra_both), dtype=index)
