@@ -44,6 +44,23 @@ def test_formatting_matches_python_on_random_values(seed, sigma):
     assert format_significant(both).tolist() == _python(both.tolist())
 
 
+@pytest.mark.parametrize("seed", [404, 505])
+def test_json_numbers_a_column_at_a_time_equal_python_formatting(seed):
+    """writers.numbers against Python's own ``float(f"{x:.10g}")`` value by value (with
+    NaN and infinities as None, no negative zero), on edge and random values."""
+    import math
+
+    from vesselnet.writers import numbers
+
+    rng = np.random.default_rng(seed)
+    values = np.concatenate([EDGE_VALUES, [np.nan, np.inf, -np.inf, -0.0],
+                             rng.lognormal(0.0, 20.0, 5000) * rng.choice([-1.0, 1.0], 5000)])
+    expected = [None if not math.isfinite(x) else float(f"{x:.10g}") + 0.0 for x in values.tolist()]
+    got = numbers(values)
+    assert [repr(x) for x in got] == [repr(x) for x in expected]
+    assert numbers(np.array([True, False])) == [True, False] and numbers(np.array([3])) == [3]
+
+
 def test_non_finite_values_are_empty():
     assert significant_bytes([np.nan, np.inf, -np.inf, 2.5]).tolist() == [b"", b"", b"", b"2.5"]
 

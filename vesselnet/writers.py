@@ -95,16 +95,37 @@ def _converted(table: dict[str, np.ndarray], columns) -> dict[str, np.ndarray]:
     return out
 
 
-def _records(ids, fixed: dict[str, object], columns: dict[str, np.ndarray]) -> list[dict]:
-    records = []
-    for i, item in enumerate(ids):
-        record = {"id": item}
-        for key, values in fixed.items():
-            record[key] = values[i]
-        for key, values in columns.items():
-            record[key] = number(values[i])
-        records.append(record)
-    return records
+def numbers(values) -> list:
+    """:func:`number` of every value of a column, a column at a time (the same values).
+
+    >>> numbers(np.array([0.1 + 0.2, np.nan, -0.0, 2.0 / 3.0]))
+    [0.3, None, 0.0, 0.6666666667]
+    """
+    from .numtext import significant_bytes
+
+    v = np.asarray(values)
+    if v.dtype.kind in "biu":
+        return v.tolist()
+    if v.dtype.kind != "f" or v.ndim != 1:
+        return [number(x) for x in v]
+    v = v.astype(float) + 0.0                       # no negative zero
+    finite = np.isfinite(v)
+    texts = significant_bytes(np.where(finite, v, 0.0), SIGNIFICANT_DIGITS)
+    out = list(map(float, texts))                   # repr of the rounded float, read back
+    for i in np.flatnonzero(~finite).tolist():
+        out[i] = None
+    return out
+
+
+class Records(list):
+    """Items of one JSON list, each a flat mapping: :func:`dumps` writes them a line each
+    without looking inside."""
+
+
+def _records(ids, fixed: dict[str, object], columns: dict[str, np.ndarray]) -> Records:
+    keys = ["id", *fixed, *columns]
+    cells = [list(ids), *(list(v) for v in fixed.values()), *(numbers(v) for v in columns.values())]
+    return Records(dict(zip(keys, row)) for row in zip(*cells))
 
 
 def nodes_json(result: SteadyResult) -> list[dict]:
@@ -209,8 +230,14 @@ def dumps(document) -> str:
     return _dump(document, 0) + "\n"
 
 
+_ENCODER = json.JSONEncoder(ensure_ascii=False, allow_nan=False)
+
+
 def _dump(value, depth: int) -> str:
     pad = " " * (depth + 1)
+    if isinstance(value, Records) and value:
+        return "[\n" + ",\n".join(pad + line for line in map(_ENCODER.encode, value)) + "\n" \
+            + " " * depth + "]"
     if isinstance(value, dict) and any(isinstance(v, (dict, list)) for v in value.values()):
         items = [f"{pad}{json.dumps(str(k), ensure_ascii=False)}: {_dump(v, depth + 1)}"
                  for k, v in value.items()]
@@ -218,7 +245,7 @@ def _dump(value, depth: int) -> str:
     if isinstance(value, list) and value and all(isinstance(v, (dict, list)) for v in value):
         items = [pad + _dump(v, depth + 1) for v in value]
         return "[\n" + ",\n".join(items) + "\n" + " " * depth + "]"
-    return json.dumps(value, ensure_ascii=False, allow_nan=False)
+    return _ENCODER.encode(value)
 
 
 def atomic_write(path, text: str | bytes) -> None:
