@@ -25,9 +25,10 @@ from __future__ import annotations
 import dataclasses
 import functools
 import itertools
+import operator
 from collections.abc import Mapping, Sequence
-from typing import Union
 from dataclasses import dataclass, field
+from typing import Union
 
 import numpy as np
 
@@ -65,7 +66,7 @@ class Ids(Sequence):
     def __getitem__(self, i):
         if self._tuple is not None or isinstance(i, slice):
             return self.as_tuple[i]
-        return str(self.array[i])
+        return str(self.array[operator.index(i)])     # an integer, as a tuple takes
 
     def __iter__(self):
         return iter(self.as_tuple)
