@@ -279,3 +279,12 @@ def test_binary_path_makes_no_python_strings(forms, tmp_path):
     for section in (net.nodes, net.vessels, net.beds):
         assert isinstance(section.ids, Ids) and section.ids._tuple is None
     assert net.vessels.ids == load_network(forms["csv"]).vessels.ids
+
+
+def test_npz_with_stray_bytes_in_ids_reads_without_error(tmp_path):
+    """Byte ids that are not UTF-8 (a hand-made file) are decoded with U+FFFD, never a crash."""
+    def change(arrays):
+        arrays["vessel_id"] = np.array([b"a\xff", b"b"])
+
+    back = load_network(_broken_npz(tmp_path, change))
+    assert back.vessels.ids == ("a\ufffd", "b")

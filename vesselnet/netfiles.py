@@ -83,7 +83,7 @@ def network_arrays(network: Network) -> dict[str, np.ndarray]:
     A column whose rows all hold one value is stored as that value alone
     (one dimension fewer: 0-d, or one row of node positions), and ids that
     are all ASCII as bytes: a generated 10^6-vessel network shrinks from
-    260 to about 120 MB, and reads back in a fraction of the time.
+    260 to 92 MB, and reads back in a third of the time.
     """
     nodes, v, beds = network.nodes, network.vessels, network.beds
     header = {"format": NPZ_FORMAT, "version": NPZ_VERSION, "name": network.name,
@@ -285,7 +285,8 @@ def duplicated(ids: np.ndarray) -> list[str]:
     if not len(same):
         return []
     rows = np.unique(np.concatenate([order[same], order[same + 1]]))
-    suspects = [x.decode("latin-1") if isinstance(x, bytes) else x for x in ids[rows].tolist()]
+    suspects = [x.decode("utf-8", "replace") if isinstance(x, bytes) else x
+                for x in ids[rows].tolist()]
     seen, dup = set(), []
     for x in suspects:
         if x in seen and x not in dup:

@@ -245,14 +245,20 @@ def ascii_bytes(text: np.ndarray) -> np.ndarray | None:
 
 
 def ascii_text(raw: np.ndarray) -> np.ndarray:
-    """A bytes (``S``) array of ASCII as numpy text (``U``), read-only; the inverse of
-    :func:`ascii_bytes` (bytes above 127 are taken as Latin-1).
+    """A bytes (``S``) array as numpy text (``U``), read-only; the inverse of :func:`ascii_bytes`.
 
-    >>> ascii_text(np.array([b"a", b"bc"])).tolist()
-    ['a', 'bc']
+    ASCII goes byte by byte into code points; any other byte sends the array
+    through UTF-8 decoding (invalid sequences become U+FFFD, never an error).
+
+    >>> ascii_text(np.array([b"a", b"bc"])).tolist(), ascii_text(np.array(["é".encode()])).tolist()
+    (['a', 'bc'], ['é'])
     """
     width = max(raw.dtype.itemsize, 1)
     octets = np.ascontiguousarray(raw).view(np.uint8).reshape(len(raw), raw.dtype.itemsize)
+    if (octets > 127).any():
+        out = np.char.decode(raw, "utf-8", "replace")
+        out.flags.writeable = False
+        return out
     wide = np.zeros((len(raw), width), dtype="<u4")
     wide[:, :octets.shape[1]] = octets
     out = wide.view(f"<U{width}").reshape(len(raw))
