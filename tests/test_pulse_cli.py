@@ -55,6 +55,8 @@ def test_pulse_json_follows_spec(name, capsys):
     assert len(doc["input_impedance"]["modulus"]) == 21
     assert doc["units"]["impedance"] == "mmHg*s/mL" and doc["units"]["time"] == "s"
     assert doc["windkessel"]["total_compliance"] > doc["windkessel"]["conduit_compliance"] > 0
+    # a demo network is a small system: LU with partial pivoting, named like the steady solver
+    assert doc["checks"]["harmonic_solver"].startswith("superlu (")
 
 
 def test_waveform_selection_and_unknown_id(capsys):

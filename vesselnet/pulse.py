@@ -219,7 +219,8 @@ def solve_pulse(network: Network, *, steady: SteadyResult | None = None,
         vessel_flow_out_harmonics_m3_s=flow_out, bed_flow_harmonics_m3_s=bed_flow,
         input_impedance_pa_s_m3=impedance, vessel_pwv_m_s=pwv, vessel_phase_velocity_m_s=phase,
         zero_harmonic_difference=zero_diff, harmonic_residual=residual,
-        warnings=tuple(steady.warnings), notes=tuple(model_notes(network, system, sources, pressure_waveforms)))
+        warnings=tuple(steady.warnings), notes=tuple(model_notes(network, system, sources, pressure_waveforms)),
+        harmonic_solver=system.solver)
 
 
 def _node_outflow(system: HarmonicNetwork, q_from, q_to, row: int) -> complex:

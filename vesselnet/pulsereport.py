@@ -147,7 +147,8 @@ def pulse_json(result: PulseResult, *, selection: WaveformSelection | None = Non
     z = result.impedance_table()
     checks = writers.checks_json(steady)
     checks.update({"zero_harmonic_difference": writers.number(result.zero_harmonic_difference),
-                   "harmonic_residual": writers.number(result.harmonic_residual)})
+                   "harmonic_residual": writers.number(result.harmonic_residual),
+                   "harmonic_solver": result.harmonic_solver})
     doc = {"vesselnet": writers.FORMAT_VERSION, "network": net.name, "caution": CAUTION,
            "units": {**writers.units_map(), **PULSE_UNITS},
            "inflow": writers.number(from_si(steady.inflow_m3_s, "flow", _FLOW)),
@@ -302,7 +303,8 @@ def pulse_report(result: PulseResult, selection: WaveformSelection, setup=None) 
         parts += ["", "Windkessel set-up: " + setup.summary()]
     parts += ["", f"checks: 0 Hz system vs steady solve {_fmt(result.zero_harmonic_difference)}, "
                   f"harmonic residual {_fmt(result.harmonic_residual)}, steady mass balance "
-                  f"{result.steady.mass_balance:.1e}"]
+                  f"{result.steady.mass_balance:.1e}"
+                  + (f", harmonic solver {result.harmonic_solver}" if result.harmonic_solver else "")]
     parts += [f"note: {n}" for n in result.notes]
     parts += ["", CAUTION]
     return "\n".join(parts)

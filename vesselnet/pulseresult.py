@@ -96,6 +96,9 @@ class PulseResult:
         largest flow amplitude.
     warnings, notes : tuple of str
         Things the user should know / modelling choices made.
+    harmonic_solver : str
+        The linear solver of the harmonic nodal systems, ``method (ordering)``
+        (see :mod:`vesselnet.linsolve`); empty when none ran.
     """
 
     network: Network
@@ -114,6 +117,7 @@ class PulseResult:
     harmonic_residual: float
     warnings: tuple[str, ...] = ()
     notes: tuple[str, ...] = field(default_factory=tuple)
+    harmonic_solver: str = ""
 
     # ---------------------------------------------------------------- axes
     @property
