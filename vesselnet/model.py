@@ -132,7 +132,13 @@ class _LazyIndex(dict):
 
 
 def _rows(index: Mapping[str, int], ids) -> np.ndarray:
-    """Rows of ``ids`` in ``index`` (one C-level pass: ``map`` over the dict)."""
+    """Rows of ``ids`` in ``index``: one C-level pass of lookups (``operator.itemgetter``,
+    the fastest here; ids that are not text are looked up by their ``str``)."""
+    if len(ids) > 1:
+        try:
+            return np.array(operator.itemgetter(*ids)(index), dtype=np.int64)
+        except (KeyError, TypeError):
+            pass
     return np.fromiter(map(index.__getitem__, map(str, ids)), dtype=np.int64, count=len(ids))
 
 
