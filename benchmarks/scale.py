@@ -191,27 +191,26 @@ def child(args: list[str], timeout: float | None = None) -> dict | None:
     return json.loads(done.stdout.strip().splitlines()[-1])
 
 
+def command_seconds(args: list[str], repeats: int) -> list[float]:
+    """Wall times of ``python -m vesselnet ARGS``, one a fresh process (run from a temporary folder)."""
+    times = []
+    for _ in range(repeats):
+        t = time.perf_counter()
+        subprocess.run([sys.executable, "-m", "vesselnet", *args], capture_output=True, check=True,
+                       cwd=tempfile.gettempdir())
+        times.append(time.perf_counter() - t)
+    return times
+
+
 def cli_seconds(path: Path, out: Path, repeats: int) -> float:
     """Best wall time of the command ``vesselnet solve FILE -o OUT.npz`` (interpreter start,
     imports, the terminal report included)."""
-    best = float("inf")
-    for _ in range(repeats):
-        t = time.perf_counter()
-        subprocess.run([sys.executable, "-m", "vesselnet", "solve", str(path), "-o", str(out)],
-                       capture_output=True, check=True, cwd=tempfile.gettempdir())
-        best = min(best, time.perf_counter() - t)
-    return best
+    return min(command_seconds(["solve", str(path), "-o", str(out)], repeats))
 
 
 def help_seconds() -> float:
     """Median wall time of ``python -m vesselnet --help`` over five runs."""
-    times = []
-    for _ in range(5):
-        t = time.perf_counter()
-        subprocess.run([sys.executable, "-m", "vesselnet", "--help"], capture_output=True, check=True,
-                       cwd=tempfile.gettempdir())
-        times.append(time.perf_counter() - t)
-    return sorted(times)[2]
+    return sorted(command_seconds(["--help"], 5))[2]
 
 
 def main() -> int:

@@ -35,7 +35,7 @@ from . import writers
 from .errors import NetworkSpecError, Problem
 from .fields import near_miss
 from .pulseresult import PulseResult
-from .textreport import format_table
+from .textreport import MAX_ROWS, format_table, rows_shown
 from .units import DISPLAY_UNITS, MMHG_PA, from_si
 
 CAUTION = ("Research and planning aid, not a medical device: pulsatility indices and pressures "
@@ -268,7 +268,6 @@ def write_pulse_tables(result: PulseResult, directory, selection: WaveformSelect
 
 
 # --------------------------------------------------------------------------- terminal
-MAX_ROWS = 40
 IMPEDANCE_ROWS = 11
 
 
@@ -286,9 +285,8 @@ def pulse_report(result: PulseResult, selection: WaveformSelection, setup=None) 
                   result.node_mean_pa[i] / mm, result.node_pulse_pressure_pa[i] / mm]
                  for i in selection.nodes[:MAX_ROWS]]
     parts += ["Pressures", format_table(["node", "systolic [mmHg]", "diastolic [mmHg]", "mean [mmHg]",
-                                         "pulse [mmHg]"], node_rows)]
-    if len(selection.nodes) > MAX_ROWS:
-        parts.append(f"... {len(selection.nodes) - MAX_ROWS} more (all of them with --json or -o DIR)")
+                                         "pulse [mmHg]"], node_rows)
+              + rows_shown(len(selection.nodes), MAX_ROWS)[1]]
     vt = result.vessel_table()
     flow = from_si(np.stack([vt["flow_mean_m3_s"], vt["flow_peak_m3_s"], vt["flow_min_m3_s"]]), "flow", _FLOW)
     vessel_rows = [[vt["id"][i], flow[0, i], flow[1, i], flow[2, i], vt["pulsatility_index"][i],
@@ -296,9 +294,8 @@ def pulse_report(result: PulseResult, selection: WaveformSelection, setup=None) 
                    for i in range(min(MAX_ROWS, len(vt["id"])))]
     parts += ["", "Vessels (flow at the 'from' end)",
               format_table(["vessel", f"mean [{_FLOW}]", f"peak [{_FLOW}]", f"min [{_FLOW}]", "PI",
-                            "reversed [%]", "PWV [m/s]"], vessel_rows, digits=2)]
-    if len(vt["id"]) > MAX_ROWS:
-        parts.append(f"... {len(vt['id']) - MAX_ROWS} more (all of them with --json or -o DIR)")
+                            "reversed [%]", "PWV [m/s]"], vessel_rows, digits=2)
+              + rows_shown(len(vt["id"]), MAX_ROWS)[1]]
     if setup is not None:
         parts += ["", "Windkessel set-up: " + setup.summary()]
     parts += ["", f"checks: 0 Hz system vs steady solve {_fmt(result.zero_harmonic_difference)}, "

@@ -51,14 +51,14 @@ def format_table(headers: list[str], rows: list[list], *, digits: int = 1) -> st
     return "\n".join(out)
 
 
-def _shown(count: int, limit: int) -> tuple[int, str]:
-    """How many of ``count`` rows a table shows, and the line that says what it left out.
+def rows_shown(count: int, limit: int) -> tuple[int, str]:
+    """How many of ``count`` rows a table shows, and the line (newline first) saying what it left out.
 
     Rows are built for the shown ones only: a 10^6-vessel report costs what a small one does.
     """
     if count <= limit:
         return count, ""
-    return limit, f"... {count - limit} more (all of them with --json or -o PATH)"
+    return limit, f"\n... {count - limit} more (all of them with --json or -o PATH)"
 
 
 def bed_table_text(result: SteadyResult, limit: int = MAX_ROWS) -> str:
@@ -66,7 +66,7 @@ def bed_table_text(result: SteadyResult, limit: int = MAX_ROWS) -> str:
     beds = result.network.beds
     if not len(beds):
         return "no beds"
-    shown, more = _shown(len(beds), limit)
+    shown, more = rows_shown(len(beds), limit)
     order = np.argsort(-np.nan_to_num(result.bed_share, nan=-1.0), kind="stable")[:shown]
     flow = from_si(result.bed_flow_m3_s[order], "flow", DISPLAY_UNITS["flow"])
     pressure = from_si(result.bed_pressure_pa[order], "pressure", "mmHg")
@@ -82,13 +82,13 @@ def bed_table_text(result: SteadyResult, limit: int = MAX_ROWS) -> str:
                         DISPLAY_UNITS["flow"])
         rows = [row + [cells[k]] for k, row in enumerate(rows)]
         headers.append(f"red cells [{DISPLAY_UNITS['flow']}]")
-    return format_table(headers, rows) + ("\n" + more if more else "")
+    return format_table(headers, rows) + more
 
 
 def vessel_table_text(result: SteadyResult, limit: int = MAX_ROWS) -> str:
     """Vessels in input order: flow, pressure drop, velocity, wall shear stress, Reynolds."""
     v = result.network.vessels
-    shown, more = _shown(len(v), limit)
+    shown, more = rows_shown(len(v), limit)
     flow = from_si(result.vessel_flow_m3_s[:shown], "flow", DISPLAY_UNITS["flow"])
     drop = from_si(result.vessel_pressure_drop_pa[:shown], "pressure", "mmHg")
     velocity, wss = result.vessel_mean_velocity_m_s[:shown], result.vessel_wss_pa[:shown]
@@ -104,16 +104,16 @@ def vessel_table_text(result: SteadyResult, limit: int = MAX_ROWS) -> str:
         rows = [row[:-1] + [hematocrit[i], viscosity[i], row[-1]] for i, row in enumerate(rows)]
         headers[-1:] = ["HD", f"viscosity [{DISPLAY_UNITS['viscosity']}]", ""]
     text = format_table(headers, rows, digits=2)
-    return text + ("\n" + more if more else "")
+    return text + more
 
 
 def node_table_text(result: SteadyResult, limit: int = MAX_ROWS) -> str:
     """Node pressures in input order."""
     ids = result.network.nodes.ids
-    shown, more = _shown(len(ids), limit)
+    shown, more = rows_shown(len(ids), limit)
     pressure = from_si(result.pressure_pa[:shown], "pressure", "mmHg")
     rows = [[ids[i], pressure[i]] for i in range(shown)]
-    return format_table(["node", "pressure [mmHg]"], rows, digits=2) + ("\n" + more if more else "")
+    return format_table(["node", "pressure [mmHg]"], rows, digits=2) + more
 
 
 def solve_report(result: SteadyResult) -> str:
@@ -164,7 +164,7 @@ def wall_table_text(result: SteadyResult, limit: int = MAX_ROWS) -> str:
     v = result.network.vessels
     extra = result.vessel_extra
     rows_ = np.flatnonzero(~np.isnan(v.wall_thickness_m) | v.distensible)
-    shown, more = _shown(len(rows_), limit)
+    shown, more = rows_shown(len(rows_), limit)
     rows_ = rows_[:shown]
     radius = from_si(extra["lumen_radius_m"], "radius", DISPLAY_UNITS["radius"])
     stress = from_si(extra["wall_stress_pa"], "stress", DISPLAY_UNITS["stress"])
@@ -174,7 +174,7 @@ def wall_table_text(result: SteadyResult, limit: int = MAX_ROWS) -> str:
     text = format_table(["vessel", f"lumen radius [{DISPLAY_UNITS['radius']}]", "strain [%]",
                          f"wall stress [{DISPLAY_UNITS['stress']}]",
                          f"volume [{DISPLAY_UNITS['volume']}]", ""], rows, digits=2)
-    return text + ("\n" + more if more else "")
+    return text + more
 
 
 def wall_report_parts(result: SteadyResult) -> list[str]:
